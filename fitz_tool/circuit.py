@@ -1,0 +1,257 @@
+"""Circuit expressions: grammar, element kinds, the tree and its vectorized complex impedance.
+
+Grammar (``||`` binds tighter than ``+``; parentheses group)::
+
+    series   := parallel ( "+" parallel )*
+    parallel := term ( "||" term )*
+    term     := NAME | "(" series ")"
+    NAME     := kind letter followed by letters, digits or underscores
+
+Kinds (e^{+jwt} convention, common practice):
+
+=====  ======================  ==========================  ======================
+kind   element                 impedance                   parameters (SI)
+=====  ======================  ==========================  ======================
+R      resistor                R                           NAME [ohm]
+L      inductor                j w L                       NAME [H]
+C      capacitor               1 / (j w C)                 NAME [F]
+P      constant phase element  1 / (Q (j w)^n)             NAME_Q [S s^n], NAME_n [1]
+=====  ======================  ==========================  ======================
+
+The constant phase element is the published definition Z = 1/(Q (jw)^n), 0 < n <= 1; n = 1 is a capacitor
+C = Q, n = 0 a resistor 1/Q. Its prefix letter in fitz_tool is ``P`` (for power-law), e.g. ``P1`` with
+parameters ``P1_Q`` and ``P1_n``.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from .exceptions import ModelSyntaxError
+
+__all__ = ["Element", "Series", "Parallel", "Circuit", "ELEMENT_KINDS", "parse_circuit"]
+
+#: kind letter -> (description, parameter suffixes and units)
+ELEMENT_KINDS: dict[str, tuple[str, tuple[tuple[str, str], ...]]] = {
+    "R": ("resistor", (("", "ohm"),)),
+    "L": ("inductor", (("", "H"),)),
+    "C": ("capacitor", (("", "F"),)),
+    "P": ("constant phase element", (("_Q", "S s^n"), ("_n", ""))),
+}
+
+
+@dataclass(frozen=True)
+class Element:
+    """One two-terminal element; ``kind`` is a key of ``ELEMENT_KINDS``."""
+
+    name: str
+    kind: str
+
+    @property
+    def parameters(self) -> tuple[str, ...]:
+        return tuple(self.name + suffix for suffix, _ in ELEMENT_KINDS[self.kind][1])
+
+
+@dataclass(frozen=True)
+class Series:
+    """Elements or groups in series: Z = sum(Z_i)."""
+
+    children: tuple[Node, ...]
+
+
+@dataclass(frozen=True)
+class Parallel:
+    """Elements or groups in parallel: Z = 1 / sum(1 / Z_i)."""
+
+    children: tuple[Node, ...]
+
+
+Node = Element | Series | Parallel
+
+_TOKEN = re.compile(r"\s*(?:(?P<name>[A-Za-z][A-Za-z0-9_]*)|(?P<op>\|\||\+|\(|\))|(?P<bad>\S))")
+
+
+def _tokenize(expression: str) -> list[tuple[str, str, int]]:
+    tokens = []
+    for m in _TOKEN.finditer(expression):
+        if m.group("bad") is not None:
+            column = m.start("bad") + 1
+            char = m.group("bad")
+            hint = " (use || for parallel)" if char == "|" else ""
+            raise ModelSyntaxError(f"unexpected character {char!r}{hint}", expression, column)
+        if m.group("name") is not None:
+            tokens.append(("name", m.group("name"), m.start("name") + 1))
+        elif m.group("op") is not None:
+            tokens.append(("op", m.group("op"), m.start("op") + 1))
+    return tokens
+
+
+class _Parser:
+    def __init__(self, expression: str):
+        self.expression = expression
+        self.tokens = _tokenize(expression)
+        self.pos = 0
+
+    def error(self, message: str, column: int | None = None):
+        if column is None:
+            column = self.tokens[self.pos][2] if self.pos < len(self.tokens) else len(self.expression) + 1
+        raise ModelSyntaxError(message, self.expression, column)
+
+    def peek(self) -> str | None:
+        return self.tokens[self.pos][1] if self.pos < len(self.tokens) else None
+
+    def series(self) -> Node:
+        parts = [self.parallel()]
+        while self.peek() == "+":
+            self.pos += 1
+            parts.append(self.parallel())
+        return parts[0] if len(parts) == 1 else Series(tuple(parts))
+
+    def parallel(self) -> Node:
+        parts = [self.term()]
+        while self.peek() == "||":
+            self.pos += 1
+            parts.append(self.term())
+        return parts[0] if len(parts) == 1 else Parallel(tuple(parts))
+
+    def term(self) -> Node:
+        if self.pos >= len(self.tokens):
+            self.error("expression ends where an element or '(' was expected")
+        kind, text, column = self.tokens[self.pos]
+        if kind == "name":
+            self.pos += 1
+            letter = text[0]
+            if letter not in ELEMENT_KINDS:
+                known = ", ".join(f"{k} ({v[0]})" for k, v in ELEMENT_KINDS.items())
+                self.error(f"unknown element kind {letter!r} in {text!r}; names start with {known}", column)
+            return Element(text, letter)
+        if text == "(":
+            self.pos += 1
+            node = self.series()
+            if self.peek() != ")":
+                self.error(f"missing ')' for the '(' opened at column {column}")
+            self.pos += 1
+            return node
+        self.error(f"expected an element or '(' but found {text!r}", column)
+        raise AssertionError  # unreachable
+
+    def parse(self) -> Node:
+        if not self.tokens:
+            raise ModelSyntaxError("empty circuit expression", self.expression, 1)
+        node = self.series()
+        if self.pos < len(self.tokens):
+            self.error(f"unexpected {self.tokens[self.pos][1]!r}")
+        return node
+
+
+def parse_circuit(expression: str) -> Node:
+    """Parse an expression such as ``"Rs + L1 || Cp"`` into a tree (raises ModelSyntaxError)."""
+    return _Parser(expression).parse()
+
+
+def _elements(node: Node) -> list[Element]:
+    if isinstance(node, Element):
+        return [node]
+    return [e for child in node.children for e in _elements(child)]
+
+
+def _to_text(node: Node, inside_parallel: bool = False) -> str:
+    if isinstance(node, Element):
+        return node.name
+    if isinstance(node, Series):
+        text = " + ".join(_to_text(c) for c in node.children)
+        return f"({text})" if inside_parallel else text
+    return " || ".join(_to_text(c, inside_parallel=True) for c in node.children)
+
+
+def _element_impedance(element: Element, omega: np.ndarray, values: Mapping[str, float]):
+    """Impedance (ohm) of one element and its derivative with respect to each of its parameters."""
+    jw = 1j * omega
+    if element.kind == "R":
+        r = values[element.name]
+        return np.full(omega.shape, r, dtype=complex), {element.name: np.ones(omega.shape, complex)}
+    if element.kind == "L":
+        return jw * values[element.name], {element.name: jw}
+    if element.kind == "C":
+        c = values[element.name]
+        z = 1.0 / (jw * c)
+        return z, {element.name: -z / c}
+    q, n = values[element.name + "_Q"], values[element.name + "_n"]
+    z = 1.0 / (q * jw**n)
+    return z, {element.name + "_Q": -z / q, element.name + "_n": -z * np.log(jw)}
+
+
+def _evaluate(node: Node, omega: np.ndarray, values: Mapping[str, float]):
+    if isinstance(node, Element):
+        return _element_impedance(node, omega, values)
+    results = [_evaluate(child, omega, values) for child in node.children]
+    if isinstance(node, Series):
+        z = sum(r[0] for r in results)
+        grads = {k: v for r in results for k, v in r[1].items()}
+        return z, grads
+    admittance = sum(1.0 / r[0] for r in results)
+    z = 1.0 / admittance
+    grads = {}
+    for zi, gi in results:
+        factor = (z / zi) ** 2  # dZ/dZi for Z = 1/sum(1/Zi)
+        for k, v in gi.items():
+            grads[k] = factor * v
+    return z, grads
+
+
+@dataclass(frozen=True)
+class Circuit:
+    """A parsed circuit expression.
+
+    Examples
+    --------
+    >>> c = Circuit.parse("Rs + L1 || Cp")
+    >>> c.parameter_names
+    ('Rs', 'L1', 'Cp')
+    """
+
+    expression: str
+    tree: Node
+
+    @classmethod
+    def parse(cls, expression: str) -> Circuit:
+        tree = parse_circuit(expression)
+        names = [e.name for e in _elements(tree)]
+        duplicates = sorted({n for n in names if names.count(n) > 1})
+        if duplicates:
+            column = expression.find(duplicates[0], expression.find(duplicates[0]) + 1) + 1
+            raise ModelSyntaxError(f"element {duplicates[0]!r} appears twice", expression, column)
+        return cls(_to_text(tree), tree)
+
+    @property
+    def elements(self) -> tuple[Element, ...]:
+        return tuple(_elements(self.tree))
+
+    @property
+    def parameter_names(self) -> tuple[str, ...]:
+        return tuple(p for e in self.elements for p in e.parameters)
+
+    def parameter_unit(self, name: str) -> str:
+        """SI unit of a parameter (``"ohm"``, ``"H"``, ``"F"``, ``"S s^n"`` or ``""``)."""
+        for e in self.elements:
+            for (suffix, unit), pname in zip(ELEMENT_KINDS[e.kind][1], e.parameters, strict=True):
+                if pname == name:
+                    return unit
+        raise KeyError(name)
+
+    def impedance(self, frequency: np.ndarray, values: Mapping[str, float]) -> np.ndarray:
+        """Complex impedance in ohm at ``frequency`` (Hz) for parameter ``values`` (SI)."""
+        omega = 2 * np.pi * np.asarray(frequency, dtype=float)
+        return _evaluate(self.tree, omega, values)[0]
+
+    def impedance_gradient(self, frequency: np.ndarray, values: Mapping[str, float]):
+        """Impedance (ohm) and ``{parameter: dZ/dparameter}`` at ``frequency`` (Hz), exact."""
+        omega = 2 * np.pi * np.asarray(frequency, dtype=float)
+        return _evaluate(self.tree, omega, values)
+
+    def __str__(self) -> str:
+        return self.expression

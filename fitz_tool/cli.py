@@ -1,0 +1,271 @@
+"""Command line face of fitz_tool: argument parsing, output staging and exit codes; no computation here.
+
+Exit codes: 0 success, 1 unexpected internal error, 2 bad input, 3 bad circuit expression, 4 fit cannot be
+attempted, 5 output cannot be written (see ``exceptions.py``).
+"""
+
+from __future__ import annotations
+
+import argparse
+import io
+import json
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+from . import __version__
+from .exceptions import FitzError, InputError
+from .units import parse_quantity
+
+__all__ = ["main", "build_parser"]
+
+
+def _key_value(text: str, what: str) -> tuple[str, str]:
+    if "=" not in text:
+        raise InputError(f"{what} {text!r}: expected NAME=VALUE")
+    key, value = text.split("=", 1)
+    return key.strip(), value.strip()
+
+
+def _add_reader_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("reading the bench file")
+    group.add_argument("--map", action="append", default=[], metavar="ROLE=HEADER",
+                       help="name the column for a role (repeatable), e.g. --map frequency='Freq (kHz)'")
+    group.add_argument("--shunt", metavar="OHMS", help="series shunt resistance when current is a voltage")
+    group.add_argument("--reference", metavar="OHMS",
+                       help="reference resistor for a transfer-ratio file (part voltage / reference voltage)")
+    group.add_argument("--through", choices=["shunt", "series"],
+                       help=".s2p files: part shunted across the through line, or in series with it")
+    group.add_argument("--band", metavar="FMIN:FMAX", help="keep only this frequency range, e.g. 1k:30M")
+    corr = parser.add_argument_group("corrections")
+    corr.add_argument("--skew", metavar="SECONDS",
+                      help="current channel delay relative to the voltage channel, removed as 2 pi f dt")
+    corr.add_argument("--open", metavar="FILE", help="open-circuit standard measured in the same form")
+    corr.add_argument("--short", metavar="FILE", help="short-circuit standard measured in the same form")
+    corr.add_argument("--load", metavar="FILE", help="load standard measured in the same form")
+    corr.add_argument("--load-value", metavar="OHMS", help="known impedance of the load standard")
+
+
+def _read_options(args):
+    from .readers import ReadOptions
+
+    column_map = dict(_key_value(item, "--map") for item in args.map)
+    return ReadOptions(
+        shunt=parse_quantity(args.shunt, "ohm", "--shunt") if args.shunt else None,
+        reference=parse_quantity(args.reference, "ohm", "--reference") if args.reference else None,
+        column_map=column_map,
+        through=args.through,
+    )
+
+
+def _band(text: str) -> tuple[float, float]:
+    if ":" not in text:
+        raise InputError(f"--band {text!r}: expected FMIN:FMAX, e.g. 1k:30M")
+    low, high = text.split(":", 1)
+    fmin = parse_quantity(low, "Hz", "--band minimum") if low.strip() else 0.0
+    fmax = parse_quantity(high, "Hz", "--band maximum") if high.strip() else float("inf")
+    if not fmin < fmax:
+        raise InputError(f"--band {text!r}: minimum must be below maximum")
+    return fmin, fmax
+
+
+def load_from_args(args):
+    """Read the bench file and apply corrections as the options say; returns (Measurement, input paths)."""
+    from .corrections import Corrections, apply_corrections
+    from .readers import read_measurement
+
+    options = _read_options(args)
+    measurement = read_measurement(args.file, options)
+    inputs = [args.file]
+    standards = {}
+    for role in ("open", "short", "load"):
+        path = getattr(args, role)
+        if path:
+            standards[role] = read_measurement(path, options)
+            inputs.append(path)
+    if args.load_value and not args.load:
+        raise InputError("--load-value needs --load FILE")
+    if args.load and not args.load_value:
+        raise InputError("--load FILE needs --load-value OHMS (the known impedance of the load standard)")
+    corrections = Corrections(
+        skew=parse_quantity(args.skew, "s", "--skew") if args.skew else None,
+        open=standards.get("open"),
+        short=standards.get("short"),
+        load=standards.get("load"),
+        load_value=parse_quantity(args.load_value, "ohm", "--load-value") if args.load_value else None,
+    )
+    measurement = apply_corrections(measurement, corrections)
+    if args.band:
+        fmin, fmax = _band(args.band)
+        mask = (measurement.frequency >= fmin) & (measurement.frequency <= fmax)
+        if mask.sum() < 2:
+            raise InputError(f"{args.file}: --band {args.band} keeps {int(mask.sum())} points; widen it")
+        measurement = measurement.select(mask, f"kept {int(mask.sum())} of {len(measurement)} points in "
+                                               f"--band {args.band}")
+    return measurement, inputs
+
+
+def _figure_bytes(figure, fmt: str) -> bytes:
+    import matplotlib.pyplot as plt
+
+    buffer = io.BytesIO()
+    figure.savefig(buffer, format=fmt, dpi=120, bbox_inches="tight")
+    plt.close(figure)
+    return buffer.getvalue()
+
+
+def _cmd_inspect(args) -> int:
+    from .inspection import format_summary, summarize
+    from .outputs import write_outputs
+
+    measurement, inputs = load_from_args(args)
+    summary = summarize(measurement)
+    outputs: dict[str, bytes | str] = {}
+    if args.csv:
+        from .inspection import measurement_table
+
+        outputs[args.csv] = measurement_table(measurement).to_csv(index=False)
+    if args.plot:
+        from .plots import plot_measurement
+
+        outputs[args.plot] = _figure_bytes(plot_measurement(measurement), Path(args.plot).suffix[1:] or "png")
+    write_outputs(outputs, inputs)
+    print(format_summary(summary, measurement))
+    return 0
+
+
+def _parse_named_values(items: Sequence[str], option: str) -> dict[str, float]:
+    values = {}
+    for item in items:
+        name, text = _key_value(item, option)
+        values[name] = parse_quantity(text, "", f"{option} {name}")
+    return values
+
+
+def _parse_bounds(items: Sequence[str]) -> dict[str, tuple[float, float]]:
+    bounds = {}
+    for item in items:
+        name, text = _key_value(item, "--bound")
+        if ":" not in text:
+            raise InputError(f"--bound {item!r}: expected NAME=LOW:HIGH, e.g. Rs=1m:10")
+        low, high = text.split(":", 1)
+        bounds[name] = (parse_quantity(low, "", f"--bound {name} low"), parse_quantity(high, "", f"--bound {name} high"))
+    return bounds
+
+
+def _cmd_fit(args) -> int:
+    from .derived import design_values
+    from .fitting import fit
+    from .outputs import write_outputs
+    from .presets import resolve_model
+    from .report import fit_to_json, format_fit_report, run_record
+    from .selection import fit_auto
+
+    measurement, inputs = load_from_args(args)
+    at = [parse_quantity(a, "Hz", "--at") for a in args.at]
+    constraints = dict(fixed=_parse_named_values(args.fix, "--fix"),
+                       guesses=_parse_named_values(args.guess, "--guess"),
+                       bounds=_parse_bounds(args.bound))
+    selection = None
+    if args.model.strip().lower() == "auto":
+        selection = fit_auto(measurement, **constraints)
+        result = selection.chosen
+    else:
+        result = fit(measurement, resolve_model(args.model), **constraints)
+    design = design_values(result, at)
+    record = run_record(args, inputs, __version__)
+
+    outputs: dict[str, bytes | str] = {}
+    if args.json:
+        outputs[args.json] = json.dumps(fit_to_json(result, selection, design, record), indent=2) + "\n"
+    if args.curve:
+        from .report import curve_table
+
+        outputs[args.curve] = curve_table(result).to_csv(index=False)
+    if args.spice:
+        from .spice import to_spice_subcircuit
+
+        outputs[args.spice] = to_spice_subcircuit(result, name=args.subckt_name)
+    figures = {}
+    if args.plot_dir or args.report:
+        from .plots import fit_figures
+
+        figures = fit_figures(result, design)
+    if args.plot_dir:
+        stem = Path(args.file).stem
+        for key, figure in figures.items():
+            for fmt in ("png", "svg"):
+                outputs[str(Path(args.plot_dir) / f"{stem}_{key}.{fmt}")] = _figure_bytes(figure, fmt)
+    if args.report:
+        from .html_report import render_html_report
+
+        outputs[args.report] = render_html_report(result, selection, design, record, figures)
+    write_outputs(outputs, inputs)
+    print(format_fit_report(result, selection, design))
+    return 0
+
+
+def _cmd_models(args) -> int:
+    from .presets import PRESETS
+
+    width = max(len(name) for name in PRESETS)
+    for name, preset in PRESETS.items():
+        print(f"{name:<{width}}  {preset.expression:<34}  {preset.description}")
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="fitz-tool",
+        description="Measured impedance of a passive part -> fitted equivalent circuit with uncertainties.")
+    parser.add_argument("--version", action="version", version=f"fitz-tool {__version__}")
+    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    inspect = commands.add_parser("inspect", help="read a bench file and summarize the measured impedance")
+    inspect.add_argument("file", metavar="FILE")
+    _add_reader_options(inspect)
+    inspect.add_argument("--plot", metavar="OUT.png", help="write a Bode plot of |Z| and phase")
+    inspect.add_argument("--csv", metavar="OUT.csv", help="write the normalized impedance table")
+    inspect.set_defaults(handler=_cmd_inspect)
+
+    fitp = commands.add_parser("fit", help="fit an equivalent circuit to a bench file")
+    fitp.add_argument("file", metavar="FILE")
+    fitp.add_argument("--model", required=True, metavar="EXPR|PRESET|auto",
+                      help="circuit expression (e.g. 'Rs + L1 || Cp'), a preset name (see 'models'), or auto")
+    _add_reader_options(fitp)
+    model = fitp.add_argument_group("parameters")
+    model.add_argument("--fix", action="append", default=[], metavar="NAME=VALUE", help="hold a parameter")
+    model.add_argument("--guess", action="append", default=[], metavar="NAME=VALUE", help="starting value")
+    model.add_argument("--bound", action="append", default=[], metavar="NAME=LOW:HIGH", help="limits")
+    out = fitp.add_argument_group("outputs")
+    out.add_argument("--at", action="append", default=[], metavar="FREQ",
+                     help="operating frequency for design values (repeatable), e.g. --at 100k")
+    out.add_argument("--json", metavar="OUT.json", help="machine-readable result (SI units)")
+    out.add_argument("--curve", metavar="OUT.csv", help="measured and model impedance with residuals")
+    out.add_argument("--spice", metavar="OUT.cir", help="SPICE subcircuit of the fitted network")
+    out.add_argument("--subckt-name", default="FITTED_PART", metavar="NAME", help="subcircuit name")
+    out.add_argument("--plot-dir", metavar="DIR", help="write PNG and SVG plots into DIR")
+    out.add_argument("--report", metavar="OUT.html", help="self-contained HTML report")
+    fitp.set_defaults(handler=_cmd_fit)
+
+    models = commands.add_parser("models", help="list the named starting topologies")
+    models.set_defaults(handler=_cmd_models)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; returns the exit code (also used by the ``fitz-tool`` console script)."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.handler(args)
+    except FitzError as exc:
+        print(f"fitz-tool: error: {exc}", file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print("fitz-tool: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,159 @@
+"""The measured object every stage passes along: impedance over frequency, with its noise and history.
+
+Conventions (common practice): time dependence e^{+j w t}; Z = V / I; positive reactance is inductive.
+Noise is described in the log of Z, whose real part is ln|Z| and imaginary part the phase: amplitude errors
+are relative, phase errors absolute.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .exceptions import InputError
+
+__all__ = ["Measurement", "Provenance"]
+
+
+@dataclass(frozen=True)
+class Provenance:
+    """Where a measurement came from and everything done to it, in order.
+
+    Attributes
+    ----------
+    source : str
+        Path of the input file as given (``""`` for data built in code).
+    sha256 : str
+        SHA-256 of the input file's bytes (``""`` when not read from a file).
+    form : str
+        Input form, e.g. ``"v_i_phasors"``, ``"v_shunt"``, ``"z_polar"``, ``"z_rect"``, ``"ratio"``,
+        ``"touchstone_s11"``, ``"touchstone_s21_shunt"``, ``"touchstone_s21_series"``, ``"synthetic"``.
+    columns : dict
+        Role -> header (or Touchstone field) used for it.
+    units : dict
+        Role -> unit as read from the file (``"kHz"``, ``"mV rms"``, ``"deg"``...).
+    steps : tuple of str
+        Every conversion or correction applied, in words, in order.
+    warnings : tuple of str
+        Everything the user should know (rows dropped, assumptions made), in words.
+    """
+
+    source: str = ""
+    sha256: str = ""
+    form: str = "synthetic"
+    columns: dict[str, str] = field(default_factory=dict)
+    units: dict[str, str] = field(default_factory=dict)
+    steps: tuple[str, ...] = ()
+    warnings: tuple[str, ...] = ()
+
+    def with_step(self, step: str, warning: str | None = None) -> Provenance:
+        """Return a copy with one more step (and optionally one more warning) recorded."""
+        warnings = self.warnings + ((warning,) if warning else ())
+        return dataclasses.replace(self, steps=self.steps + (step,), warnings=warnings)
+
+
+@dataclass(frozen=True)
+class Measurement:
+    """Impedance of one part over frequency.
+
+    Attributes
+    ----------
+    frequency : ndarray of float
+        Frequency in Hz, strictly ascending, positive.
+    impedance : ndarray of complex
+        Impedance in ohm at each frequency (e^{+jwt}, Z = V/I).
+    sigma_lnmag : ndarray of float or None
+        Standard uncertainty of ln|Z| per point (i.e. relative |Z| uncertainty), or None when unknown.
+    sigma_phase : ndarray of float or None
+        Standard uncertainty of the phase of Z per point, in rad, or None when unknown.
+    sigma_absolute : bool
+        True when the sigmas are absolute standard uncertainties (weights trusted, covariance not rescaled);
+        False when they only give the relative weight of points (noise level estimated from the residuals).
+    provenance : Provenance
+        File, columns, units, conversions and warnings.
+    """
+
+    frequency: np.ndarray
+    impedance: np.ndarray
+    sigma_lnmag: np.ndarray | None = None
+    sigma_phase: np.ndarray | None = None
+    sigma_absolute: bool = False
+    provenance: Provenance = field(default_factory=Provenance)
+
+    def __post_init__(self) -> None:
+        f = np.asarray(self.frequency, dtype=float)
+        z = np.asarray(self.impedance, dtype=complex)
+        where = self.provenance.source or "measurement"
+        if f.ndim != 1 or f.shape != z.shape:
+            raise InputError(f"{where}: frequency and impedance must be 1-D arrays of equal length")
+        if f.size == 0:
+            raise InputError(f"{where}: no data points")
+        if not np.all(np.isfinite(f)) or not np.all(f > 0):
+            raise InputError(f"{where}: frequencies must be finite and > 0 Hz")
+        if f.size > 1 and not np.all(np.diff(f) > 0):
+            raise InputError(f"{where}: frequencies must be strictly ascending and unique")
+        if not np.all(np.isfinite(z)):
+            raise InputError(f"{where}: impedance has non-finite values")
+        object.__setattr__(self, "frequency", f)
+        object.__setattr__(self, "impedance", z)
+        for name in ("sigma_lnmag", "sigma_phase"):
+            s = getattr(self, name)
+            if s is not None:
+                s = np.broadcast_to(np.asarray(s, dtype=float), f.shape).copy()
+                if not np.all(np.isfinite(s)) or not np.all(s > 0):
+                    raise InputError(f"{where}: {name} must be finite and > 0")
+                object.__setattr__(self, name, s)
+        for arr in (self.frequency, self.impedance, self.sigma_lnmag, self.sigma_phase):
+            if arr is not None:
+                arr.setflags(write=False)
+
+    @property
+    def omega(self) -> np.ndarray:
+        """Angular frequency in rad/s."""
+        return 2 * np.pi * self.frequency
+
+    @property
+    def magnitude(self) -> np.ndarray:
+        """|Z| in ohm."""
+        return np.abs(self.impedance)
+
+    @property
+    def phase_deg(self) -> np.ndarray:
+        """Phase of Z in degrees, in (-180, 180]."""
+        return np.degrees(np.angle(self.impedance))
+
+    @property
+    def resistance(self) -> np.ndarray:
+        """Re Z in ohm."""
+        return self.impedance.real
+
+    @property
+    def reactance(self) -> np.ndarray:
+        """Im Z in ohm (positive: inductive)."""
+        return self.impedance.imag
+
+    def __len__(self) -> int:
+        return int(self.frequency.size)
+
+    def replace(self, step: str | None = None, warning: str | None = None, **changes) -> Measurement:
+        """Return a copy with fields changed and, if given, the step recorded in the provenance."""
+        if step is not None:
+            changes["provenance"] = changes.get("provenance", self.provenance).with_step(step, warning)
+        return dataclasses.replace(self, **changes)
+
+    def select(self, mask: np.ndarray, step: str) -> Measurement:
+        """Return the points where ``mask`` is True, recording why."""
+        mask = np.asarray(mask, dtype=bool)
+
+        def pick(a):
+            return None if a is None else a[mask]
+
+        return self.replace(
+            step=step,
+            frequency=self.frequency[mask],
+            impedance=self.impedance[mask],
+            sigma_lnmag=pick(self.sigma_lnmag),
+            sigma_phase=pick(self.sigma_phase),
+        )

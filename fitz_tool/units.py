@@ -1,0 +1,82 @@
+"""SI prefixes at the edges: parsing user values and displaying results in engineering notation.
+
+Inside fitz_tool every number is in SI base units (Hz, ohm, H, F, s, rad).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+
+from matplotlib.ticker import EngFormatter
+
+from .exceptions import InputError
+
+__all__ = ["SI_PREFIXES", "prefix_factor", "parse_quantity", "format_quantity", "format_relative"]
+
+#: Multipliers of the SI prefixes (both "u" and the micro sign are accepted for 1e-6).
+SI_PREFIXES: dict[str, float] = {
+    "f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "\u00b5": 1e-6, "\u03bc": 1e-6,
+    "m": 1e-3, "": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "T": 1e12,
+}
+
+_NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+_QUANTITY = re.compile(rf"^\s*({_NUMBER})\s*(meg|[fpnu\u00b5\u03bcmkKMGT]?)\s*([A-Za-z\u03a9]*)\s*$")
+
+
+def prefix_factor(prefix: str) -> float:
+    """Multiplier of an SI prefix (``"k"`` -> 1e3); raises KeyError for an unknown prefix."""
+    if prefix.lower() == "meg":
+        return 1e6
+    return SI_PREFIXES[prefix]
+
+
+def parse_quantity(text: str, unit: str = "", what: str = "value") -> float:
+    """Parse ``"100k"``, ``"2.2uH"``, ``"1.5 MHz"``, ``"0.1"`` or ``"100m"`` into an SI float.
+
+    ``m`` is milli and ``M`` mega (``meg`` is also mega). A trailing unit, if present, must equal ``unit``
+    (case-insensitive; ``ohm``/``Ohm``/the ohm sign all accepted for ohm).
+    """
+    match = _QUANTITY.match(str(text))
+    if not match:
+        raise InputError(f"cannot read {what} {text!r}: give a number with an optional SI prefix, e.g. 100k")
+    number, prefix, trailing = match.groups()
+    if trailing:
+        if trailing.lower() in ("ohm", "ohms", "\u03c9") and unit == "ohm":
+            pass
+        elif not unit or trailing.lower() != unit.lower():
+            # "100m" style where the prefix matched nothing and the tail is a prefix+unit, e.g. "2u2"? refuse.
+            raise InputError(f"cannot read {what} {text!r}: unit {trailing!r} is not {unit or 'expected'}")
+    return float(number) * prefix_factor(prefix)
+
+
+def _eng(value: float, unit: str, places: int | None) -> str:
+    text = EngFormatter(unit=unit, places=places, sep=" ", usetex=False, useMathText=False)(value)
+    return text.replace("\u00b5", "u").replace("\u2212", "-")
+
+
+def format_relative(stderr: float, value: float) -> str:
+    """Relative uncertainty as a percentage with two significant digits, e.g. ``"0.14 %"``."""
+    rel = abs(stderr / value) * 100 if value != 0 else math.inf
+    if not math.isfinite(rel):
+        return "inf %"
+    return f"{rel:.2g} %" if rel < 100 else f"{rel:.0f} %"
+
+
+def format_quantity(value: float, unit: str = "", stderr: float | None = None) -> str:
+    """Engineering notation with unit and relative uncertainty: ``"22.07 uH +/- 0.14 %"``.
+
+    The value shows no more digits than its uncertainty supports (two significant digits of the
+    uncertainty); with no uncertainty it shows four significant digits and nothing else.
+    """
+    if value is None or not math.isfinite(value):
+        return f"{value} {unit}".strip()
+    if value == 0:
+        return _eng(0.0, unit, 0) + ("" if stderr is None else f" +/- {_eng(stderr, unit, 2)}")
+    exp3 = 3 * math.floor(math.log10(abs(value)) / 3)
+    mantissa_digits = math.floor(math.log10(abs(value))) - exp3 + 1  # 1..3 digits before the point
+    if stderr is None or not math.isfinite(stderr) or stderr <= 0:
+        return _eng(value, unit, max(0, 4 - mantissa_digits))
+    lead = math.floor(math.log10(stderr))  # decade of the uncertainty's first digit
+    places = min(max(0, exp3 - lead + 1), 9)
+    return f"{_eng(value, unit, places)} +/- {format_relative(stderr, value)}"
