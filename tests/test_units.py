@@ -1,0 +1,44 @@
+"""SI prefixes in, engineering notation out."""
+
+import pytest
+
+from fitz_tool.exceptions import InputError
+from fitz_tool.units import format_quantity, parse_quantity
+
+
+@pytest.mark.parametrize(
+    ("text", "unit", "expected"),
+    [
+        # SI prefix multipliers: BIPM SI Brochure, 9th edition, Table 7.
+        ("100k", "Hz", 1e5),
+        ("2.2uH", "H", 2.2e-6),
+        ("2.2\u00b5H", "H", 2.2e-6),
+        ("1.5 MHz", "Hz", 1.5e6),
+        ("100m", "ohm", 0.1),
+        ("10meg", "", 1e7),  # SPICE's "meg" for mega: common practice, no source
+        ("4.7kohm", "ohm", 4.7e3),
+        ("1e-9", "", 1e-9),
+        ("-3n", "s", -3e-9),
+    ],
+)
+def test_parse_quantity_reads_si_prefixes(text, unit, expected):
+    assert parse_quantity(text, unit) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize("text", ["abc", "1.2.3", "5 furlongs", ""])
+def test_parse_quantity_refuses_nonsense(text):
+    with pytest.raises(InputError, match="cannot read"):
+        parse_quantity(text, "Hz")
+
+
+def test_value_shows_only_the_digits_its_uncertainty_supports():
+    # 22.07 uH with 31 nH standard error: two significant digits of the uncertainty (0.031 uH) fix the
+    # last shown decimal (common practice, no source).
+    assert format_quantity(22.07e-6, "H", 3.1e-8) == "22.070 uH +/- 0.14 %"
+    assert format_quantity(0.05, "ohm", 0.04) == "50 mohm +/- 80 %"
+    assert format_quantity(1.2345e6, "Hz", 2.0e3) == "1.2345 MHz +/- 0.16 %"
+
+
+def test_value_without_uncertainty_has_four_significant_digits():
+    assert format_quantity(1.234567e-12, "F") == "1.235 pF"
+    assert format_quantity(47e-6, "F") == "47.00 uF"
