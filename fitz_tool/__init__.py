@@ -3,8 +3,66 @@
 The public API (the CLI is a thin face over the same functions)::
 
     import fitz_tool as ft
-    m = ft.read_measurement("sample_measurements/choke_vi_scope.csv")
+    m = ft.read_measurement("sample_measurements/output_choke_scope.csv", ft.ReadOptions(shunt=0.1))
     result = ft.fit(m, "Rs + L1 || Cp")
+    print(ft.format_fit_report(result, None, ft.design_values(result, [100e3])))
+
+Names are loaded on first use, so ``import fitz_tool`` stays light (matplotlib only loads for plots).
 """
 
+from __future__ import annotations
+
+import importlib
+
 __version__ = "0.1.0"
+
+_EXPORTS: dict[str, str] = {
+    # the measured object and reading it
+    "Measurement": "measurement",
+    "Provenance": "measurement",
+    "ReadOptions": "readers",
+    "read_measurement": "readers",
+    "Corrections": "corrections",
+    "apply_corrections": "corrections",
+    "summarize": "inspection",
+    # circuits and fitting
+    "Circuit": "circuit",
+    "PRESETS": "presets",
+    "resolve_model": "presets",
+    "fit": "fitting",
+    "fit_auto": "selection",
+    "FitResult": "results",
+    "ParameterEstimate": "results",
+    "ModelSelection": "results",
+    # what the engineer reads and shares
+    "design_values": "derived",
+    "format_fit_report": "report",
+    "fit_to_json": "report",
+    "curve_table": "report",
+    "plot_measurement": "plots",
+    "fit_figures": "plots",
+    "render_html_report": "html_report",
+    "to_spice_subcircuit": "spice",
+    "format_quantity": "units",
+    "parse_quantity": "units",
+    # errors
+    "FitzError": "exceptions",
+    "InputError": "exceptions",
+    "ModelSyntaxError": "exceptions",
+    "FitError": "exceptions",
+    "OutputError": "exceptions",
+}
+
+__all__ = ["__version__", *_EXPORTS]
+
+
+def __getattr__(name: str):
+    if name in _EXPORTS:
+        value = getattr(importlib.import_module(f".{_EXPORTS[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'fitz_tool' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(__all__)
