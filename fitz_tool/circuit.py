@@ -169,11 +169,16 @@ def _to_text(node: Node, inside_parallel: bool = False) -> str:
 
 
 def _element_impedance(element: Element, omega: np.ndarray, values: Mapping[str, float]):
-    """Impedance (ohm) of one element and its derivative with respect to each of its parameters."""
+    """Impedance (ohm) of one element and its derivative with respect to each of its parameters.
+
+    Values may be floats or arrays that broadcast against ``omega`` (e.g. shape (K, 1) against (M,) to
+    evaluate K parameter sets at once).
+    """
     jw = 1j * omega
     if element.kind == "R":
         r = values[element.name]
-        return np.full(omega.shape, r, dtype=complex), {element.name: np.ones(omega.shape, complex)}
+        ones = np.ones_like(jw) * np.ones_like(r)  # broadcasts when values are arrays (batch evaluation)
+        return r * ones, {element.name: ones}
     if element.kind == "L":
         return jw * values[element.name], {element.name: jw}
     if element.kind == "C":
@@ -238,10 +243,22 @@ class Circuit:
     def parameter_unit(self, name: str) -> str:
         """SI unit of a parameter (``"ohm"``, ``"H"``, ``"F"``, ``"S s^n"`` or ``""``)."""
         for e in self.elements:
-            for (suffix, unit), pname in zip(ELEMENT_KINDS[e.kind][1], e.parameters, strict=True):
+            for (_suffix, unit), pname in zip(ELEMENT_KINDS[e.kind][1], e.parameters, strict=True):
                 if pname == name:
                     return unit
         raise KeyError(name)
+
+    def parameter_element(self, name: str) -> Element:
+        """The element a parameter belongs to (raises KeyError for an unknown name)."""
+        for e in self.elements:
+            if name in e.parameters:
+                return e
+        raise KeyError(name)
+
+    def parameter_is_exponent(self, name: str) -> bool:
+        """True for a constant phase element's exponent ``NAME_n`` (dimensionless, 0 < n <= 1)."""
+        e = self.parameter_element(name)
+        return e.kind == "P" and name == e.name + "_n"
 
     def impedance(self, frequency: np.ndarray, values: Mapping[str, float]) -> np.ndarray:
         """Complex impedance in ohm at ``frequency`` (Hz) for parameter ``values`` (SI)."""

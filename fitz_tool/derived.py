@@ -1,0 +1,252 @@
+"""Design values of a fitted model: self-resonances and, at operating frequencies, L or C, ESR, |Z|, phase, Q, D.
+
+Every value carries a first-order standard uncertainty propagated with the parameter correlations,
+``var(q) = J C J^T`` with ``J = dq/dp`` exact (from ``Circuit.impedance_gradient``) and ``C`` the fit's
+covariance in SI units (or the covariance of ``result.uvars`` when the fit gives only those). Relations used
+(common practice, e^{+jwt} convention, Z = R + jX):
+
+- inductive (X >= 0): effective inductance ``L_eff = X / w``
+- capacitive (X < 0): effective capacitance ``C_eff = -1 / (w X)``
+- ``ESR = R``, ``Q = |X| / R``, dissipation factor ``D = R / |X| = 1 / Q``
+- self-resonance: a frequency where the model's X crosses zero; rising X (series resonance, |Z| minimum),
+  falling X (parallel resonance, |Z| maximum). Its uncertainty follows from the implicit function theorem,
+  ``df0/dp = -(dG/dp) / (dG/df)``, with G = X for a series and G = Im Y for a parallel resonance.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import brentq
+
+from .results import FitResult
+
+__all__ = ["DerivedValue", "Resonance", "OperatingPoint", "DesignValues", "design_values",
+           "parameter_covariance", "frequency_derivative"]
+
+#: How far beyond each end of the sweep (factor in frequency) extrapolated resonances are searched.
+EXTRAPOLATION_FACTOR = 1e3
+
+
+@dataclass(frozen=True)
+class DerivedValue:
+    """One design value in SI units; ``stderr`` None with ``note`` saying why."""
+
+    name: str
+    label: str
+    value: float
+    stderr: float | None
+    unit: str
+    note: str = ""
+
+
+@dataclass(frozen=True)
+class Resonance:
+    """A self-resonant frequency of the model (Hz).
+
+    ``kind`` is ``"series"`` (X rises through zero: |Z| minimum) or ``"parallel"`` (X falls through zero:
+    |Z| maximum); ``in_sweep`` is False for an extrapolated resonance outside the measured range.
+    """
+
+    frequency: DerivedValue
+    kind: str
+    in_sweep: bool
+
+
+@dataclass(frozen=True)
+class OperatingPoint:
+    """Design values at one operating frequency (Hz); ``character`` is ``"inductive"`` or ``"capacitive"``."""
+
+    frequency: float
+    character: str
+    in_sweep: bool
+    values: dict[str, DerivedValue]
+
+
+@dataclass(frozen=True)
+class DesignValues:
+    """Resonances of the model and the values at each requested operating frequency."""
+
+    resonances: tuple[Resonance, ...]
+    resonance_note: str
+    points: tuple[OperatingPoint, ...]
+    uncertainty_note: str
+
+    @property
+    def srf_in_sweep(self) -> tuple[Resonance, ...]:
+        return tuple(r for r in self.resonances if r.in_sweep)
+
+
+def parameter_covariance(result: FitResult) -> tuple[tuple[str, ...], np.ndarray | None, str]:
+    """Names, SI covariance of the free parameters, and a note: why it is None, or what it leaves out.
+
+    Uses ``result.covariance`` (ordered as ``result.correlation_names``) or else the covariance of
+    ``result.uvars``.
+    """
+    free = tuple(n for n, p in result.parameters.items() if p.vary)
+    if not free:
+        return (), None, "no uncertainty: all parameters fixed by the user"
+    names: tuple[str, ...] = ()
+    covariance = None
+    if result.covariance is not None:
+        names = tuple(result.correlation_names)
+        covariance = np.asarray(result.covariance, dtype=float)
+    elif result.uvars:
+        from uncertainties import covariance_matrix
+
+        names = tuple(n for n in free if n in result.uvars)
+        if names:
+            covariance = np.array(covariance_matrix([result.uvars[n] for n in names]), dtype=float)
+    if covariance is not None:
+        missing = [n for n in free if n not in names]
+        partial = (f"first-order propagation with correlations; leaves out {', '.join(missing)} "
+                   "(no standard error from the fit)") if missing else ""
+        return names, covariance, partial
+    notes = sorted({p.stderr_note for p in result.parameters.values() if p.vary and p.stderr_note})
+    reason = "; ".join(notes) if notes else "the fit gave no covariance"
+    return free, None, f"no uncertainty: {reason}"
+
+
+def frequency_derivative(result: FitResult, frequency: np.ndarray | float) -> np.ndarray:
+    """dZ/df (ohm/Hz) of the model, exact.
+
+    Each element's impedance depends on w only through the products w L, w C and w^n Q, so
+    ``w dZ/dw = sum_L L dZ/dL + sum_C C dZ/dC + sum_P n Q dZ/dQ`` (Euler's relation for these homogeneous
+    forms; common practice, no source).
+    """
+    f = np.atleast_1d(np.asarray(frequency, dtype=float))
+    values = result.values
+    _, gradient = result.circuit.impedance_gradient(f, values)
+    total = np.zeros(f.shape, dtype=complex)
+    for element in result.circuit.elements:
+        if element.kind in ("L", "C"):
+            total += values[element.name] * gradient[element.name]
+        elif element.kind == "P":
+            q_name = element.name + "_Q"
+            total += values[element.name + "_n"] * values[q_name] * gradient[q_name]
+    return total / f
+
+
+def _propagate(gradient: dict[str, float], names: Sequence[str], covariance: np.ndarray | None) -> float | None:
+    if covariance is None:
+        return None
+    j = np.array([gradient.get(n, 0.0) for n in names], dtype=float)
+    variance = float(j @ covariance @ j) if j.size else 0.0
+    return math.sqrt(max(variance, 0.0))
+
+
+def _value(name, label, value, gradient, names, covariance, unit, note) -> DerivedValue:
+    stderr = _propagate(gradient, names, covariance) if math.isfinite(value) else None
+    if not math.isfinite(value):
+        note = note or "not finite for this model"
+    return DerivedValue(name, label, float(value), stderr, unit, "" if stderr is not None else note)
+
+
+def _operating_point(result: FitResult, f: float, names, covariance, note: str) -> OperatingPoint:
+    z, grads = result.circuit.impedance_gradient(np.array([f]), result.values)
+    z = complex(z[0])
+    dz = {n: complex(g[0]) for n, g in grads.items()}
+    r, x, w = z.real, z.imag, 2 * math.pi * f
+    mag = abs(z)
+    d_r = {n: g.real for n, g in dz.items()}
+    d_x = {n: g.imag for n, g in dz.items()}
+    out: dict[str, DerivedValue] = {}
+
+    def add(name, label, value, grad, unit, why=note):
+        out[name] = _value(name, label, value, grad, names, covariance, unit, why)
+
+    inductive = x >= 0
+    if inductive:
+        add("L_eff", "effective inductance", x / w, {n: d_x[n] / w for n in dz}, "H")
+    else:
+        add("C_eff", "effective capacitance", -1 / (w * x), {n: d_x[n] / (w * x * x) for n in dz}, "F")
+    add("ESR", "equivalent series resistance", r, d_r, "ohm")
+    add("abs_Z", "impedance magnitude |Z|", mag, {n: (r * d_r[n] + x * d_x[n]) / mag for n in dz}, "ohm")
+    add("phase", "phase of Z", math.degrees(math.atan2(x, r)),
+        {n: math.degrees((r * d_x[n] - x * d_r[n]) / mag**2) for n in dz}, "deg")
+    s = 1.0 if inductive else -1.0
+    if r > 0 and x != 0:
+        add("Q", "quality factor Q = |X|/R", abs(x) / r, {n: s * d_x[n] / r - abs(x) * d_r[n] / r**2 for n in dz},
+            "")
+        add("D", "dissipation factor D = R/|X|", r / abs(x),
+            {n: d_r[n] / abs(x) - r * s * d_x[n] / x**2 for n in dz}, "")
+    else:
+        why = "model has no loss at this frequency (R <= 0)" if x != 0 else "model is purely resistive here"
+        q_value, d_value = (math.inf, 0.0) if x != 0 else (0.0, math.inf)
+        add("Q", "quality factor Q = |X|/R", q_value, {}, "", why)
+        add("D", "dissipation factor D = R/|X|", d_value, {}, "", why)
+    f_meas = result.measurement.frequency
+    in_sweep = bool(f_meas[0] <= f <= f_meas[-1])
+    return OperatingPoint(float(f), "inductive" if inductive else "capacitive", in_sweep, out)
+
+
+def _find_resonances(result: FitResult, names, covariance, note: str) -> list[Resonance]:
+    f_meas = result.measurement.frequency
+    low, high = f_meas[0] / EXTRAPOLATION_FACTOR, f_meas[-1] * EXTRAPOLATION_FACTOR
+    grid = np.geomspace(low, high, 4000)
+    values = result.values
+
+    def reactance(log_f: float) -> float:
+        return float(result.circuit.impedance(np.array([math.exp(log_f)]), values)[0].imag)
+
+    x = result.circuit.impedance(grid, values).imag
+    found: list[Resonance] = []
+    for k in np.nonzero(np.sign(x[:-1]) * np.sign(x[1:]) < 0)[0]:
+        log_f0 = brentq(reactance, math.log(grid[k]), math.log(grid[k + 1]), xtol=1e-15, rtol=1e-15)
+        f0 = math.exp(log_f0)
+        kind = "series" if x[k + 1] > x[k] else "parallel"
+        z, grads = result.circuit.impedance_gradient(np.array([f0]), values)
+        dz_df = complex(frequency_derivative(result, f0)[0])
+        z0 = complex(z[0])
+        if kind == "series":  # G = X
+            d_g = {n: complex(g[0]).imag for n, g in grads.items()}
+            d_g_df = dz_df.imag
+        else:  # G = Im Y = Im(1/Z); dY = -dZ / Z^2
+            d_g = {n: (-complex(g[0]) / z0**2).imag for n, g in grads.items()}
+            d_g_df = (-dz_df / z0**2).imag
+        gradient = {n: -v / d_g_df for n, v in d_g.items()} if d_g_df != 0 else {}
+        in_sweep = bool(f_meas[0] <= f0 <= f_meas[-1])
+        label = f"{kind} self-resonance" + ("" if in_sweep else " (extrapolated outside the sweep)")
+        why = note if d_g_df != 0 else "reactance does not change with frequency here"
+        value = _value("SRF", label, f0, gradient, names, covariance if d_g_df != 0 else None, "Hz", why)
+        found.append(Resonance(value, kind, in_sweep))
+    return found
+
+
+def design_values(result: FitResult, at: Sequence[float] = ()) -> DesignValues:
+    """Self-resonances of the fitted model and the design values at each operating frequency.
+
+    Parameters
+    ----------
+    result : FitResult
+        The fit; values in SI, covariance (or ``uvars``) in SI.
+    at : sequence of float
+        Operating frequencies in Hz. Frequencies outside the sweep are computed from the model and marked
+        ``in_sweep=False`` (extrapolated).
+
+    Returns
+    -------
+    DesignValues
+        Resonances within the sweep and up to a factor ``EXTRAPOLATION_FACTOR`` beyond each end, and per
+        operating frequency ``L_eff`` [H] or ``C_eff`` [F], ``ESR`` [ohm], ``abs_Z`` [ohm], ``phase`` [deg],
+        ``Q`` and ``D`` [1], each with a first-order standard uncertainty.
+    """
+    names, covariance, note = parameter_covariance(result)
+    if covariance is not None and len(names) != covariance.shape[0]:
+        covariance, note = None, "no uncertainty: covariance does not match the parameter list"
+    elif covariance is not None and not np.all(np.isfinite(covariance)):
+        covariance, note = None, "no uncertainty: the fit's covariance is not finite"
+    points = tuple(_operating_point(result, float(f), names, covariance, note) for f in at)
+    resonances = tuple(_find_resonances(result, names, covariance, note))
+    if any(r.in_sweep for r in resonances):
+        resonance_note = ""
+    elif resonances:
+        resonance_note = "none in the sweep; the model resonates outside it (extrapolated)"
+    else:
+        resonance_note = (f"none in the sweep (and none within a factor {EXTRAPOLATION_FACTOR:g} "
+                          "beyond its ends)")
+    uncertainty_note = note or "first-order propagation with parameter correlations (J C J^T)"
+    return DesignValues(resonances, resonance_note, points, uncertainty_note)

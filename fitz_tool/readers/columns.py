@@ -1,0 +1,197 @@
+"""Deciding which column fills which role, from the headers (``headers.py``) and the user's ``--map``.
+
+Roles: ``frequency``, ``v_amplitude``, ``v_phase``, ``i_amplitude``, ``i_phase``, ``z_magnitude``,
+``z_phase``, ``z_real``, ``z_imag``, ``ratio_magnitude``, ``ratio_phase``. With voltage and current
+amplitudes, ``z_phase`` is the phase of V relative to I (only ever taken from ``--map`` or a header that
+names Z, because the sign of a bare "phase difference" column depends on the instrument).
+
+Rules, in order:
+
+1. ``--map ROLE=HEADER`` (header as written, case and surrounding spaces ignored, or ``#N`` for the N-th
+   column) wins and takes that column out of automatic recognition.
+2. Each header gives a role when its name and unit say it unambiguously.
+3. A phase column that names no subject takes the subject of its channel (``Ch1 Phase`` beside
+   ``Ch1 V(DUT)``); else, when every unpaired phase column directly follows an unpaired amplitude column, the
+   two are paired; else, when only one family of amplitudes is present (|Z| or a ratio), it is its phase.
+4. The first complete form of ``FORMS`` is used. Two columns that could fill one of its roles are refused
+   with a ``--map`` hint; nothing is guessed.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+
+from ..exceptions import InputError
+from .headers import HeaderInfo, parse_header
+
+__all__ = ["ROLES", "FORMS", "ColumnPlan", "plan_columns"]
+
+ROLES: tuple[str, ...] = ("frequency", "v_amplitude", "v_phase", "i_amplitude", "i_phase", "z_magnitude",
+                          "z_phase", "z_real", "z_imag", "ratio_magnitude", "ratio_phase")
+
+#: Forms in order of preference, with the roles each needs.
+FORMS: dict[str, tuple[str, ...]] = {
+    "z_polar": ("frequency", "z_magnitude", "z_phase"),
+    "z_rect": ("frequency", "z_real", "z_imag"),
+    "v_i": ("frequency", "v_amplitude", "v_phase", "i_amplitude", "i_phase"),
+    "v_i_difference": ("frequency", "v_amplitude", "i_amplitude", "z_phase"),
+    "ratio": ("frequency", "ratio_magnitude", "ratio_phase"),
+}
+_PREFIX = {"voltage": "v", "current": "i", "impedance": "z", "ratio": "ratio"}
+_AMPLITUDE = {"voltage": "v_amplitude", "current": "i_amplitude", "impedance": "z_magnitude",
+              "ratio": "ratio_magnitude"}
+
+
+@dataclass(frozen=True)
+class ColumnPlan:
+    """Which column fills each role of the chosen form.
+
+    Attributes
+    ----------
+    form : str
+        A key of ``FORMS``.
+    columns : dict of str to HeaderInfo
+        Role -> the column used for it.
+    steps : tuple of str
+        How the columns were chosen, in words (mapped, paired, not used).
+    """
+
+    form: str
+    columns: dict[str, HeaderInfo]
+    steps: tuple[str, ...]
+
+
+def _role(info: HeaderInfo) -> str | None:
+    if info.kind == "frequency":
+        return "frequency"
+    if info.subject is None:
+        return None
+    if info.kind == "amplitude":
+        return _AMPLITUDE[info.subject]
+    if info.kind == "phase":
+        return f"{_PREFIX[info.subject]}_phase"
+    if info.subject == "impedance" and info.kind in ("real", "imag"):
+        return f"z_{info.kind}"
+    return None
+
+
+def _find(headers: Sequence[str], wanted: str, role: str, where: str) -> int:
+    text = wanted.strip()
+    if text.startswith("#") and text[1:].isdigit():
+        number = int(text[1:])
+        if not 1 <= number <= len(headers):
+            raise InputError(f"{where}: --map {role}={wanted}: the file has columns #1 to #{len(headers)}")
+        return number - 1
+    for exact in (True, False):
+        hits = [k for k, h in enumerate(headers)
+                if (h == wanted if exact else h.strip().casefold() == text.casefold())]
+        if len(hits) == 1:
+            return hits[0]
+        if len(hits) > 1:
+            raise InputError(f"{where}: --map {role}={wanted!r}: {len(hits)} columns have that header; name "
+                             f"one by position instead, e.g. --map {role}=#{hits[0] + 1}")
+    found = ", ".join(repr(h) for h in headers)
+    raise InputError(f"{where}: --map {role}={wanted!r}: no such column; headers found: {found}")
+
+
+def _resolve_phases(infos: list[HeaderInfo], taken: set[int], steps: list[str]) -> list[HeaderInfo]:
+    """Give phase columns that name no subject the subject of their channel, neighbour or only family."""
+    out = list(infos)
+    for k, info in enumerate(out):
+        if info.kind == "phase" and info.subject is None and info.group is not None:
+            subjects = {o.subject for o in out if o.group == info.group and o.subject}
+            if len(subjects) == 1:
+                out[k] = dataclasses.replace(info, subject=subjects.pop())
+                steps.append(f"column {info.header!r}: phase of channel {info.group.upper()} "
+                             f"({out[k].subject})")
+    pending = [k for k, o in enumerate(out) if o.kind == "phase" and o.subject is None and k not in taken]
+    if not pending:
+        return out
+    phased = {o.subject for o in out if o.kind == "phase" and o.subject}
+    unpaired = [k for k, o in enumerate(out) if o.kind == "amplitude" and o.subject not in phased
+                and k not in taken]
+    if len(pending) == len(unpaired) and all(k - 1 in unpaired for k in pending):
+        for k in pending:
+            out[k] = dataclasses.replace(out[k], subject=out[k - 1].subject)
+            steps.append(f"column {out[k].header!r}: phase of the column before it, {out[k - 1].header!r}")
+        return out
+    families = {o.subject for k, o in enumerate(out) if o.kind == "amplitude" and k not in taken}
+    if len(pending) == 1 and len(families) == 1 and families <= {"impedance", "ratio"}:
+        k = pending[0]
+        out[k] = dataclasses.replace(out[k], subject=families.pop())
+        steps.append(f"column {out[k].header!r}: phase of the only amplitude family ({out[k].subject})")
+    return out
+
+
+def _hint(form: str, candidates: dict[str, list[HeaderInfo]], headers: Sequence[str],
+          free: list[str]) -> str:
+    used = {c[0].header for c in candidates.values() if len(c) == 1}
+    spare = [h for h in dict.fromkeys(free) if h not in used]
+    parts = []
+    for role in FORMS[form]:
+        if len(candidates.get(role, [])) != 1:
+            parts.append(f"--map {role}='{spare.pop(0) if spare else 'HEADER'}'")
+    return " ".join(parts)
+
+
+def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: str) -> ColumnPlan:
+    """Choose the form and the column for each of its roles.
+
+    Parameters
+    ----------
+    headers : sequence of str
+        Column headers as written in the file.
+    column_map : mapping of str to str
+        Role -> header (or ``#N``) from ``--map``.
+    where : str
+        File name for messages.
+
+    Raises
+    ------
+    InputError
+        Unknown role or header in ``column_map``, two columns for one role, or no complete form (the message
+        lists the headers found and a ``--map`` line to try).
+    """
+    steps: list[str] = []
+    infos = [parse_header(h, k) for k, h in enumerate(headers)]
+    mapped: dict[str, HeaderInfo] = {}
+    for role, wanted in column_map.items():
+        if role not in ROLES:
+            raise InputError(f"{where}: --map {role}=...: unknown role; roles are {', '.join(ROLES)}")
+        index = _find(headers, wanted, role, where)
+        if any(m.index == index for m in mapped.values()):
+            raise InputError(f"{where}: --map names column {headers[index]!r} for two roles")
+        mapped[role] = infos[index]
+        steps.append(f"column {headers[index]!r} is {role} (--map)")
+    taken = {m.index for m in mapped.values()}
+    infos = _resolve_phases(infos, taken, steps)
+    candidates: dict[str, list[HeaderInfo]] = {role: [info] for role, info in mapped.items()}
+    for info in infos:
+        role = _role(info)
+        if role is not None and info.index not in taken and role not in mapped:
+            candidates.setdefault(role, []).append(info)
+
+    complete = [f for f, roles in FORMS.items() if all(candidates.get(r) for r in roles)]
+    if not complete:
+        present = {f: sum(1 for r in roles if candidates.get(r)) for f, roles in FORMS.items()}
+        best = max(FORMS, key=lambda f: present[f])
+        free = [i.header for i in infos if i.index not in taken and _role(i) is None] + list(headers)
+        found = ", ".join(repr(h) for h in headers)
+        raise InputError(f"{where}: cannot tell which columns hold what (headers found: {found}); name them, "
+                         f"e.g. {_hint(best, candidates, headers, free)}")
+    form = complete[0]
+    for role in FORMS[form]:
+        if len(candidates[role]) > 1:
+            names = " and ".join(repr(c.header) for c in candidates[role])
+            raise InputError(f"{where}: columns {names} could both be {role}; name the one to use, e.g. "
+                             f"--map {role}='{candidates[role][0].header}'")
+    if len(complete) > 1:
+        steps.append(f"the file also holds the form(s) {', '.join(complete[1:])}; used {form}")
+    columns = {role: candidates[role][0] for role in FORMS[form]}
+    used = {c.index for c in columns.values()}
+    unused = [repr(h) for k, h in enumerate(headers) if k not in used]
+    if unused:
+        steps.append(f"columns not used: {', '.join(unused)}")
+    return ColumnPlan(form=form, columns=columns, steps=tuple(steps))

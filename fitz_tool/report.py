@@ -1,0 +1,283 @@
+"""What a fit tells the engineer in text: the terminal report, the JSON record, the curve table, the run record.
+
+All numbers stay SI in the JSON and the curve table; the terminal shows engineering notation through
+``units.format_quantity``. The JSON never holds NaN or infinity (those become ``null``).
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime
+import hashlib
+import math
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .derived import DerivedValue, DesignValues
+from .results import FitResult, ModelSelection
+from .units import format_quantity, format_relative
+
+__all__ = ["InputFile", "RunRecord", "run_record", "format_fit_report", "fit_to_json", "curve_table",
+           "format_value", "format_derived_value"]
+
+
+@dataclass(frozen=True)
+class InputFile:
+    """One input file and the SHA-256 of its bytes (``""`` when it could not be read)."""
+
+    path: str
+    sha256: str
+
+
+@dataclass(frozen=True)
+class RunRecord:
+    """How a result was made: every command option (as text), the inputs with checksums, version and date.
+
+    ``date`` is ISO 8601 in UTC, to the second.
+    """
+
+    options: dict[str, str]
+    inputs: tuple[InputFile, ...]
+    version: str
+    date: str
+
+
+def _sha256(path: str | Path) -> str:
+    digest = hashlib.sha256()
+    try:
+        with open(path, "rb") as handle:
+            for block in iter(lambda: handle.read(1 << 16), b""):
+                digest.update(block)
+    except OSError:
+        return ""
+    return digest.hexdigest()
+
+
+def _option_text(value) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, (list, tuple)):
+        return "; ".join(str(v) for v in value)
+    return str(value)
+
+
+def run_record(args: argparse.Namespace | dict, inputs: Iterable[str | Path], version: str,
+               now: datetime.datetime | None = None) -> RunRecord:
+    """Record the options of a run (skipping the ``handler`` callback), its input files and the tool version.
+
+    Parameters
+    ----------
+    args : argparse.Namespace or dict
+        Parsed command options; list options become ``"a; b"``, unset options ``""``.
+    inputs : iterable of path
+        Files read (bench file and standards); each is hashed with SHA-256.
+    version : str
+        Tool version.
+    now : datetime, optional
+        Time of the run (default: now, UTC).
+    """
+    items = vars(args) if isinstance(args, argparse.Namespace) else dict(args)
+    options = {key: _option_text(value) for key, value in items.items() if key != "handler"}
+    when = (now or datetime.datetime.now(datetime.timezone.utc)).astimezone(datetime.timezone.utc)
+    files = tuple(InputFile(str(p), _sha256(p)) for p in inputs)
+    return RunRecord(options, files, version, when.isoformat(timespec="seconds").replace("+00:00", "Z"))
+
+
+# ---------------------------------------------------------------------------------------------- terminal
+
+
+def format_value(value: float, unit: str, stderr: float | None = None) -> str:
+    """Engineering notation for a quantity with a unit; plain digits for a pure number (Q, D, exponent n).
+
+    Either way the value shows two significant digits of its uncertainty and no more.
+    """
+    if unit not in ("", "deg") or not math.isfinite(value):
+        return format_quantity(value, unit, stderr)
+    suffix = " deg" if unit == "deg" else ""
+    if stderr is None or not math.isfinite(stderr) or stderr <= 0:
+        return f"{value:.4g}{suffix}"
+    places = min(max(0, 1 - math.floor(math.log10(stderr))), 12)
+    spread = f"{stderr:.2g}{suffix}" if unit == "deg" else format_relative(stderr, value)
+    return f"{value:.{places}f}{suffix} +/- {spread}"
+
+
+def format_derived_value(value: DerivedValue) -> str:
+    """A design value in engineering notation, or the reason it has no uncertainty."""
+    if not math.isfinite(value.value):
+        return f"{'infinite' if value.value > 0 else 'undefined'} ({value.note})"
+    text = format_value(value.value, value.unit, value.stderr)
+    if value.stderr is None and value.note:
+        text += f"  ({value.note})"
+    return text
+
+
+def _table(rows: Sequence[Sequence[str]], header: Sequence[str]) -> list[str]:
+    widths = [max(len(str(r[i])) for r in [header, *rows]) for i in range(len(header))]
+    line = "  ".join(f"{h:<{w}}" for h, w in zip(header, widths, strict=True))
+    out = ["  " + line.rstrip(), "  " + "  ".join("-" * w for w in widths)]
+    out += ["  " + "  ".join(f"{c:<{w}}" for c, w in zip(r, widths, strict=True)).rstrip() for r in rows]
+    return out
+
+
+def parameter_rows(result: FitResult) -> list[tuple[str, str, str]]:
+    """(name, value with uncertainty, note) for each parameter, in display form."""
+    rows = []
+    for p in result.parameters.values():
+        note = p.stderr_note if p.stderr is None else ""
+        if p.at_bound:
+            note = (note + "; " if note else "") + f"at {p.at_bound} bound"
+        if not p.vary:
+            note = note or "fixed by user"
+        rows.append((p.name, format_value(p.value, p.unit, p.stderr), note))
+    return rows
+
+
+def quality_rows(result: FitResult) -> list[tuple[str, str]]:
+    """(measure, value) pairs describing the fit quality."""
+    return [
+        ("converged", "yes" if result.success else "NO"),
+        ("message", result.message),
+        ("chi-square", f"{result.chi_square:.6g}"),
+        ("reduced chi-square", f"{result.reduced_chi_square:.4g}"),
+        ("AIC", f"{result.aic:.6g}"),
+        ("BIC", f"{result.bic:.6g}"),
+        ("points (complex)", str(result.n_points)),
+        ("free parameters", str(result.n_free)),
+        ("degrees of freedom", str(result.degrees_of_freedom)),
+        ("weighting", result.weighting or "not stated"),
+    ]
+
+
+def design_lines(design: DesignValues) -> list[str]:
+    """Resonances and operating-point values, one per line."""
+    lines = []
+    for res in design.resonances:
+        where = "in the sweep" if res.in_sweep else "extrapolated, outside the sweep"
+        lines.append(f"  SRF ({res.kind}, {where}): {format_derived_value(res.frequency)}")
+    if design.resonance_note:
+        lines.append(f"  SRF: {design.resonance_note}")
+    for point in design.points:
+        where = "" if point.in_sweep else ", extrapolated outside the sweep"
+        lines.append(f"  at {format_quantity(point.frequency, 'Hz')} ({point.character}{where}):")
+        for v in point.values.values():
+            lines.append(f"    {v.name:<6} {format_derived_value(v):<32} {v.label}")
+    lines.append(f"  uncertainties: {design.uncertainty_note}")
+    return lines
+
+
+def format_fit_report(result: FitResult, selection: ModelSelection | None, design: DesignValues) -> str:
+    """The terminal report: model, ranking (auto), parameters, fit quality, flags, design values, provenance."""
+    prov = result.measurement.provenance
+    lines = [f"Part: {prov.source or '(data built in code)'}", f"Model: {result.circuit.expression}"]
+    if selection is not None:
+        lines += ["", f"Model ranking (lowest BIC first; chosen: {selection.chosen.circuit.expression}):"]
+        rows = [(str(k + 1), r.expression, f"{r.bic:.6g}" if math.isfinite(r.bic) else "-",
+                 "yes" if r.adequate else "no", r.note) for k, r in enumerate(selection.ranking)]
+        lines += _table(rows, ("#", "model", "BIC", "adequate", "note"))
+        lines.append(f"  why: {selection.reason}")
+    lines += ["", "Parameters:"] + _table(parameter_rows(result), ("name", "value", "note"))
+    lines += ["", "Fit quality:"] + [f"  {k:<20} {v}" for k, v in quality_rows(result)]
+    lines += ["", "Flags:"] + ([f"  - {f}" for f in result.flags] or ["  none"])
+    lines += ["", "Design values:"] + design_lines(design)
+    if prov.warnings:
+        lines += ["", "Measurement warnings:"] + [f"  - {w}" for w in prov.warnings]
+    return "\n".join(lines) + "\n"
+
+
+# ---------------------------------------------------------------------------------------------- JSON
+
+
+def _num(value) -> float | None:
+    if value is None:
+        return None
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def _derived_json(v: DerivedValue) -> dict:
+    return {"value": _num(v.value), "stderr": _num(v.stderr), "unit": v.unit, "note": v.note}
+
+
+def derived_to_json(design: DesignValues) -> dict:
+    """The ``derived`` section: resonances and operating points, SI."""
+    return {
+        "resonances": [{"kind": r.kind, "in_sweep": r.in_sweep, "frequency": _derived_json(r.frequency)}
+                       for r in design.resonances],
+        "resonance_note": design.resonance_note,
+        "at": [{"frequency": _num(p.frequency), "character": p.character, "in_sweep": p.in_sweep,
+                "values": {k: _derived_json(v) for k, v in p.values.items()}} for p in design.points],
+        "uncertainty_note": design.uncertainty_note,
+    }
+
+
+def fit_to_json(result: FitResult, selection: ModelSelection | None, design: DesignValues,
+                record: RunRecord | None) -> dict:
+    """The stable machine record of a fit (SI units, JSON-safe: no NaN or infinity, ``null`` instead).
+
+    ``ranking`` is null unless the model was chosen automatically; ``correlation`` is null when the fit gave
+    no covariance.
+    """
+    prov = result.measurement.provenance
+    correlation = None
+    if result.correlation is not None:
+        correlation = {"names": list(result.correlation_names),
+                       "matrix": [[_num(c) for c in row] for row in np.asarray(result.correlation)]}
+    ranking = None
+    if selection is not None:
+        chosen = selection.chosen.circuit.expression
+        ranking = [{"expression": r.expression, "bic": _num(r.bic), "adequate": bool(r.adequate), "note": r.note,
+                    "chosen": r.expression == chosen} for r in selection.ranking]
+    return {
+        "model": result.circuit.expression,
+        "parameters": {p.name: {"value": _num(p.value), "stderr": _num(p.stderr), "unit": p.unit,
+                                "vary": bool(p.vary), "at_bound": p.at_bound, "stderr_note": p.stderr_note}
+                       for p in result.parameters.values()},
+        "fit": {"success": bool(result.success), "message": result.message,
+                "chi_square": _num(result.chi_square), "reduced_chi_square": _num(result.reduced_chi_square),
+                "aic": _num(result.aic), "bic": _num(result.bic), "n_points": int(result.n_points),
+                "n_free": int(result.n_free), "degrees_of_freedom": int(result.degrees_of_freedom),
+                "weighting": result.weighting},
+        "flags": list(result.flags),
+        "correlation": correlation,
+        "ranking": ranking,
+        "selection_reason": selection.reason if selection is not None else None,
+        "derived": derived_to_json(design),
+        "provenance": {"source": prov.source, "sha256": prov.sha256, "form": prov.form,
+                       "columns": dict(prov.columns), "units": dict(prov.units), "steps": list(prov.steps),
+                       "warnings": list(prov.warnings), "points": len(result.measurement),
+                       "sigma_absolute": bool(result.measurement.sigma_absolute)},
+        "run": None if record is None else {
+            "options": dict(record.options), "inputs": [{"path": i.path, "sha256": i.sha256} for i in record.inputs],
+            "version": record.version, "date": record.date},
+    }
+
+
+# ---------------------------------------------------------------------------------------------- curve table
+
+
+def curve_table(result: FitResult) -> pd.DataFrame:
+    """Measured and model impedance per point, with residuals.
+
+    Columns (SI): ``frequency_Hz``; ``measured_`` and ``model_`` each with ``re_ohm``, ``im_ohm``, ``abs_ohm``,
+    ``phase_deg``; ``residual_abs_rel`` = |Z_meas| / |Z_model| - 1; ``residual_phase_deg`` = phase difference
+    wrapped to (-180, 180]; and, when the measurement has them, ``sigma_abs_rel`` and ``sigma_phase_deg``.
+    """
+    m = result.measurement
+    z_model = result.model_impedance()
+    table = {"frequency_Hz": m.frequency}
+    for prefix, z in (("measured", m.impedance), ("model", z_model)):
+        table[f"{prefix}_re_ohm"] = z.real
+        table[f"{prefix}_im_ohm"] = z.imag
+        table[f"{prefix}_abs_ohm"] = np.abs(z)
+        table[f"{prefix}_phase_deg"] = np.degrees(np.angle(z))
+    table["residual_abs_rel"] = np.abs(m.impedance) / np.abs(z_model) - 1.0
+    table["residual_phase_deg"] = np.degrees(np.angle(m.impedance / z_model))
+    if m.sigma_lnmag is not None:
+        table["sigma_abs_rel"] = m.sigma_lnmag
+    if m.sigma_phase is not None:
+        table["sigma_phase_deg"] = np.degrees(m.sigma_phase)
+    return pd.DataFrame(table)

@@ -1,0 +1,86 @@
+"""The HTML report is one self-contained, escaped file with every section and plot."""
+
+from __future__ import annotations
+
+import base64
+import re
+from html.parser import HTMLParser
+
+import pytest
+from test_derived import synthetic_result
+
+from fitz_tool.derived import design_values
+from fitz_tool.html_report import render_html_report
+from fitz_tool.measurement import Provenance
+from fitz_tool.plots import fit_figures
+from fitz_tool.report import run_record
+
+HOSTILE = "<script>alert(1)</script>.csv"
+
+
+class _Tags(HTMLParser):
+    def __init__(self):
+        super().__init__()
+        self.tags: list[tuple[str, dict]] = []
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append((tag, dict(attrs)))
+
+
+@pytest.fixture(scope="module")
+def hostile_report():
+    result = synthetic_result(source=f"bench/{HOSTILE}")
+    prov = result.measurement.provenance
+    hostile_prov = Provenance(source=prov.source, sha256=prov.sha256, form=prov.form,
+                              columns={"impedance": '|Z| "<img src=x onerror=alert(2)>"'}, units={},
+                              steps=("removed <b>shunt</b> & skew",), warnings=("row 7 <dropped>",))
+    object.__setattr__(result.measurement, "provenance", hostile_prov)
+    design = design_values(result, [100e3])
+    record = run_record({"command": "fit", "file": HOSTILE, "model": "Rs + L1 || Cp", "at": "100k"}, [],
+                        "0.1.0")
+    figures = fit_figures(result, design)
+    return render_html_report(result, None, design, record, figures), figures
+
+
+def test_report_is_self_contained(hostile_report):
+    html, _ = hostile_report
+    parser = _Tags()
+    parser.feed(html)
+    names = [t for t, _ in parser.tags]
+    assert "script" not in names and "link" not in names and "iframe" not in names
+    text = re.sub(r"data:image/png;base64,[A-Za-z0-9+/=]+", "data:", html)
+    assert "http:" not in text and "https:" not in text and "//" not in text and "url(" not in text
+    for _tag, attrs in parser.tags:
+        if "src" in attrs:
+            assert attrs["src"].startswith("data:image/png;base64,")
+        assert not any(k.startswith("on") for k in attrs), "event handler attribute"
+
+
+def test_hostile_strings_are_escaped(hostile_report):
+    html, _ = hostile_report
+    assert "<script>" not in html and "<img src=x" not in html and "<b>shunt" not in html
+    assert "<title>Equivalent circuit of bench/&lt;script&gt;alert(1)&lt;/script&gt;.csv</title>" in html
+    assert "removed &lt;b&gt;shunt&lt;/b&gt; &amp; skew" in html and "row 7 &lt;dropped&gt;" in html
+
+
+def test_every_plot_is_embedded(hostile_report):
+    html, figures = hostile_report
+    images = re.findall(r'src="data:image/png;base64,([A-Za-z0-9+/=]+)"', html)
+    assert len(images) == len(figures) == 3
+    for data in images:
+        png = base64.b64decode(data)
+        assert png[:8] == b"\x89PNG\r\n\x1a\n" and len(png) > 10_000
+
+
+def test_report_has_every_section(hostile_report):
+    html, _ = hostile_report
+    for heading in ("Part and input", "Options of this run", "Conversions and corrections applied", "Model",
+                    "Fitted values", "Correlation matrix", "Fit quality", "Flags", "Design values", "Plots",
+                    "Safety"):
+        assert f"<h2>{heading}</h2>" in html
+    assert "ab" * 32 in html  # the input checksum
+    assert "22.0000 uH +/- 0.018 %" in html and "-0.884" in html  # value and the L1-Cp correlation
+    assert "--at" in html and "100k" in html and "0.1.0" in html
+    for caution in ("Stored charge", "scope ground clip", "Shunt dissipation", "Instrument ratings",
+                    "local electrical codes", "licensed practice"):
+        assert caution in html
