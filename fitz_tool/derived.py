@@ -1,4 +1,4 @@
-"""Design values of a fitted model: self-resonances and, at operating frequencies, L or C, ESR, |Z|, phase, Q, D.
+"""Design values of a fitted model: self-resonances, and L or C, ESR, |Z|, phase, Q, D at a frequency.
 
 Every value carries a first-order standard uncertainty propagated with the parameter correlations,
 ``var(q) = J C J^T`` with ``J = dq/dp`` exact (from ``Circuit.impedance_gradient``) and ``C`` the fit's
@@ -130,7 +130,8 @@ def frequency_derivative(result: FitResult, frequency: np.ndarray | float) -> np
     return total / f
 
 
-def _propagate(gradient: dict[str, float], names: Sequence[str], covariance: np.ndarray | None) -> float | None:
+def _propagate(gradient: dict[str, float], names: Sequence[str],
+               covariance: np.ndarray | None) -> float | None:
     if covariance is None:
         return None
     j = np.array([gradient.get(n, 0.0) for n in names], dtype=float)
@@ -169,8 +170,8 @@ def _operating_point(result: FitResult, f: float, names, covariance, note: str) 
         {n: math.degrees((r * d_x[n] - x * d_r[n]) / mag**2) for n in dz}, "deg")
     s = 1.0 if inductive else -1.0
     if r > 0 and x != 0:
-        add("Q", "quality factor Q = |X|/R", abs(x) / r, {n: s * d_x[n] / r - abs(x) * d_r[n] / r**2 for n in dz},
-            "")
+        add("Q", "quality factor Q = |X|/R", abs(x) / r,
+            {n: s * d_x[n] / r - abs(x) * d_r[n] / r**2 for n in dz}, "")
         add("D", "dissipation factor D = R/|X|", r / abs(x),
             {n: d_r[n] / abs(x) - r * s * d_x[n] / x**2 for n in dz}, "")
     else:

@@ -22,25 +22,29 @@ from .results import FitResult, ModelSelection
 __all__ = ["render_html_report", "SAFETY_NOTES", "FIGURE_CAPTIONS"]
 
 FIGURE_CAPTIONS: dict[str, str] = {
-    "bode": "Measured and fitted |Z| and phase over frequency; below each, the residual (relative |Z| in %, "
-            "phase in degrees) over a band of the one-sigma noise. Dashed green: self-resonance; dotted purple: "
-            "operating frequencies.",
+    "bode": "Measured and fitted |Z| and phase over frequency; below each, the residual (relative |Z| in "
+            "%, phase in degrees) over a band of the one-sigma noise. Dashed green: self-resonance; "
+            "dotted purple: operating frequencies.",
     "q": "Quality factor Q = |X|/R over frequency, measured and fitted.",
     "impedance_plane": "Reactance against resistance (impedance plane), measured and fitted.",
 }
 
 SAFETY_NOTES: tuple[tuple[str, str], ...] = (
-    ("Stored charge", "Capacitors, above all bulk electrolytics and film parts taken from a converter, can hold a "
-     "dangerous charge long after power is removed. Discharge them through a suitable resistor and check with a "
-     "meter before handling them or connecting them to an instrument."),
-    ("Mains-referenced circuits and scope ground clips", "A scope's ground clip is tied to protective earth. "
-     "Clipping it to a mains-referenced or floating node shorts that node to earth, which can destroy the probe "
-     "and the circuit and endanger you. Use differential probes or an isolation transformer as local practice "
-     "requires; never defeat protective earth."),
-    ("Shunt dissipation", "A current shunt dissipates I^2 R: check its power rating and temperature rise at the "
-     "current you drive, and that its voltage stays inside the channel's input range."),
-    ("Instrument ratings", "Stay inside the input voltage, DC bias and power ratings of the generator, analyzer "
-     "and fixture; network-analyzer ports are easily damaged by DC or by a charged part."),
+    ("Stored charge",
+     "Capacitors, above all bulk electrolytics and film parts taken from a converter, can hold a dangerous "
+     "charge long after power is removed. Discharge them through a suitable resistor and check with a meter "
+     "before handling them or connecting them to an instrument."),
+    ("Mains-referenced circuits and scope ground clips",
+     "A scope's ground clip is tied to protective earth. Clipping it to a mains-referenced or floating node "
+     "shorts that node to earth, which can destroy the probe and the circuit and endanger you. Use "
+     "differential probes or an isolation transformer as local practice requires; never defeat protective "
+     "earth."),
+    ("Shunt dissipation",
+     "A current shunt dissipates I^2 R: check its power rating and temperature rise at the current you "
+     "drive, and that its voltage stays inside the channel's input range."),
+    ("Instrument ratings",
+     "Stay inside the input voltage, DC bias and power ratings of the generator, analyzer and fixture; "
+     "network-analyzer ports are easily damaged by DC or by a charged part."),
 )
 
 _STYLE = """
@@ -97,8 +101,8 @@ def _correlation(result: FitResult) -> str:
 def _ranking(selection: ModelSelection | None) -> str:
     if selection is None:
         return "<p>Model given by the user (no automatic choice).</p>"
-    rows = [(k + 1, r.expression, f"{r.bic:.6g}" if math.isfinite(r.bic) else "-", "yes" if r.adequate else "no",
-             r.note) for k, r in enumerate(selection.ranking)]
+    rows = [(k + 1, r.expression, f"{r.bic:.6g}" if math.isfinite(r.bic) else "-",
+             "yes" if r.adequate else "no", r.note) for k, r in enumerate(selection.ranking)]
     return (f"<p>Candidates ranked by BIC (lowest first). Chosen: <code>"
             f"{_e(selection.chosen.circuit.expression)}</code>. {_e(selection.reason)}</p>"
             + _table(("#", "model", "BIC", "adequate", "note"), rows, numeric=(0, 2)))
@@ -114,7 +118,8 @@ def _design(design: DesignValues) -> str:
         parts.append(f"<p>Self-resonance: {_e(design.resonance_note)}</p>")
     for point in design.points:
         where = "" if point.in_sweep else " - extrapolated, outside the sweep"
-        parts.append(f"<h3>At {_e(format_value(point.frequency, 'Hz'))} ({_e(point.character)}{_e(where)})</h3>")
+        title = f"At {format_value(point.frequency, 'Hz')} ({point.character}{where})"
+        parts.append(f"<h3>{_e(title)}</h3>")
         parts.append(_table(("value", "meaning", "result"),
                             [(v.name, v.label, format_derived_value(v)) for v in point.values.values()]))
     if not design.points:
@@ -155,8 +160,8 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
     """
     prov = result.measurement.provenance
     part = prov.source or "part"
-    options = [] if record is None else [(f"--{k.replace('_', '-')}" if k not in ("command", "file") else k, v)
-                                         for k, v in record.options.items()]
+    options = [] if record is None else [
+        (k if k in ("command", "file") else f"--{k.replace('_', '-')}", v) for k, v in record.options.items()]
     sections = [
         ("Part and input", _part(result, record)),
         ("Options of this run", _table(("option", "value"), options) if options else "<p>Not recorded.</p>"),
@@ -178,8 +183,8 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
                      f"<figcaption>{_e(caption)}</figcaption></figure>")
     sections.append(("Plots", "".join(plots) or "<p>No plots.</p>"))
     safety = "".join(f"<p><b>{_e(title)}.</b> {_e(text)}</p>" for title, text in SAFETY_NOTES)
-    safety += ("<p>These notes are no substitute for training: follow your local electrical codes, your site's "
-               "safety rules and licensed practice for any work on hazardous voltages.</p>")
+    safety += ("<p>These notes are no substitute for training: follow your local electrical codes, your "
+               "site's safety rules and licensed practice for any work on hazardous voltages.</p>")
     sections.append(("Safety", f'<div class="safety">{safety}</div>'))
     version = record.version if record is not None else ""
     date = record.date if record is not None else ""

@@ -12,6 +12,12 @@ from .exceptions import OutputError
 __all__ = ["write_outputs"]
 
 
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
 def write_outputs(contents: Mapping[str | Path, str | bytes], inputs: Iterable[str | Path] = ()) -> list[Path]:
     """Write every ``path -> text or bytes`` or nothing.
 
@@ -32,6 +38,7 @@ def write_outputs(contents: Mapping[str | Path, str | bytes], inputs: Iterable[s
             staged.append((tmp, path))
             with os.fdopen(fd, "wb") as handle:
                 handle.write(data.encode("utf-8") if isinstance(data, str) else data)
+            os.chmod(tmp, 0o666 & ~_umask())
         for tmp, path in staged:
             os.replace(tmp, path)
     except OSError as exc:
@@ -39,4 +46,4 @@ def write_outputs(contents: Mapping[str | Path, str | bytes], inputs: Iterable[s
             if os.path.exists(tmp):
                 os.unlink(tmp)
         raise OutputError(f"{exc.filename or 'output'}: cannot write ({exc.strerror})") from exc
-    return [path for _, path in targets]
+    return [path for path, _ in targets]

@@ -1,7 +1,8 @@
 """Figures of a measurement and of a fit: Bode view with residuals, Q over frequency, impedance plane.
 
-Every function builds a fresh ``matplotlib.figure.Figure`` on the Agg canvas (no display, no pyplot state),
-never changes its inputs and returns the Figure; the caller saves or closes it. Colours are the Okabe-Ito
+Every function builds a fresh ``matplotlib.figure.Figure`` on its own Agg canvas (no display, no pyplot state
+and no change to the session's backend), never changes its inputs and returns the Figure for the caller to
+save or show. Colours are the Okabe-Ito
 palette (Okabe & Ito, "Color Universal Design", 2008), safe for the common forms of colour-blindness.
 Axes use matplotlib's ``EngFormatter`` so ticks read ``10 kHz``, ``1 kΩ``.
 """
@@ -10,17 +11,13 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-import matplotlib
+import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+from matplotlib.ticker import EngFormatter, NullFormatter
 
-matplotlib.use("Agg", force=False)
-
-import numpy as np  # noqa: E402
-from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: E402
-from matplotlib.figure import Figure  # noqa: E402
-from matplotlib.ticker import EngFormatter, NullFormatter  # noqa: E402
-
-from .measurement import Measurement  # noqa: E402
-from .results import FitResult  # noqa: E402
+from .measurement import Measurement
+from .results import FitResult
 
 if TYPE_CHECKING:
     from .derived import DesignValues
@@ -111,7 +108,7 @@ def _model_grid(result: FitResult, points: int = 600) -> tuple[np.ndarray, np.nd
 
 
 def _noise_levels(result: FitResult) -> tuple[np.ndarray, np.ndarray, str]:
-    """One-sigma noise of the relative magnitude (fraction) and phase (rad) per point, and how it was found."""
+    """One-sigma noise of the relative |Z| (fraction) and phase (rad) per point, and how it was found."""
     m = result.measurement
     residual = result.log_residuals()
     n = len(m)
@@ -194,7 +191,8 @@ def _q_figure(result: FitResult, design: DesignValues | None) -> Figure:
     ax.set_yscale("log")
     hidden = int(np.sum(np.isnan(q_measured)))
     label = "measured" + (f" ({hidden} points with Re Z <= 0 not shown)" if hidden else "")
-    ax.plot(f, q_measured, color=PALETTE["measured"], marker="o", markersize=2.8, linestyle="none", label=label)
+    ax.plot(f, q_measured, color=PALETTE["measured"], marker="o", markersize=2.8, linestyle="none",
+            label=label)
     ax.plot(grid, q_model, color=PALETTE["model"], linewidth=1.6, label="fitted model")
     ax.set_xlabel("frequency")
     ax.set_ylabel("Q = |X| / R")
@@ -210,8 +208,8 @@ def _plane_figure(result: FitResult) -> Figure:
     grid, z_model = _model_grid(result)
     figure = _figure(6.0, 5.0)
     ax = figure.subplots()
-    ax.plot(m.resistance, m.reactance, color=PALETTE["measured"], marker="o", markersize=2.8, linestyle="none",
-            label="measured")
+    ax.plot(m.resistance, m.reactance, color=PALETTE["measured"], marker="o", markersize=2.8,
+            linestyle="none", label="measured")
     ax.plot(z_model.real, z_model.imag, color=PALETTE["model"], linewidth=1.6, label="fitted model")
     ax.plot([m.resistance[0]], [m.reactance[0]], marker="s", color=PALETTE["ink"], linestyle="none",
             markersize=5, label="lowest frequency")

@@ -1,4 +1,4 @@
-"""What a fit tells the engineer in text: the terminal report, the JSON record, the curve table, the run record.
+"""A fit in text: the terminal report, the JSON record, the curve table and the run record.
 
 All numbers stay SI in the JSON and the curve table; the terminal shows engineering notation through
 ``units.format_quantity``. The JSON never holds NaN or infinity (those become ``null``).
@@ -82,7 +82,7 @@ def run_record(args: argparse.Namespace | dict, inputs: Iterable[str | Path], ve
     """
     items = vars(args) if isinstance(args, argparse.Namespace) else dict(args)
     options = {key: _option_text(value) for key, value in items.items() if key != "handler"}
-    when = (now or datetime.datetime.now(datetime.timezone.utc)).astimezone(datetime.timezone.utc)
+    when = (now or datetime.datetime.now(datetime.UTC)).astimezone(datetime.UTC)
     files = tuple(InputFile(str(p), _sha256(p)) for p in inputs)
     return RunRecord(options, files, version, when.isoformat(timespec="seconds").replace("+00:00", "Z"))
 
@@ -170,7 +170,7 @@ def design_lines(design: DesignValues) -> list[str]:
 
 
 def format_fit_report(result: FitResult, selection: ModelSelection | None, design: DesignValues) -> str:
-    """The terminal report: model, ranking (auto), parameters, fit quality, flags, design values, provenance."""
+    """Terminal report: model, ranking (auto), parameters, fit quality, flags, design values, warnings."""
     prov = result.measurement.provenance
     lines = [f"Part: {prov.source or '(data built in code)'}", f"Model: {result.circuit.expression}"]
     if selection is not None:
@@ -229,8 +229,8 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
     ranking = None
     if selection is not None:
         chosen = selection.chosen.circuit.expression
-        ranking = [{"expression": r.expression, "bic": _num(r.bic), "adequate": bool(r.adequate), "note": r.note,
-                    "chosen": r.expression == chosen} for r in selection.ranking]
+        ranking = [{"expression": r.expression, "bic": _num(r.bic), "adequate": bool(r.adequate),
+                    "note": r.note, "chosen": r.expression == chosen} for r in selection.ranking]
     return {
         "model": result.circuit.expression,
         "parameters": {p.name: {"value": _num(p.value), "stderr": _num(p.stderr), "unit": p.unit,
@@ -251,7 +251,8 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
                        "warnings": list(prov.warnings), "points": len(result.measurement),
                        "sigma_absolute": bool(result.measurement.sigma_absolute)},
         "run": None if record is None else {
-            "options": dict(record.options), "inputs": [{"path": i.path, "sha256": i.sha256} for i in record.inputs],
+            "options": dict(record.options),
+            "inputs": [{"path": i.path, "sha256": i.sha256} for i in record.inputs],
             "version": record.version, "date": record.date},
     }
 
@@ -262,9 +263,10 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
 def curve_table(result: FitResult) -> pd.DataFrame:
     """Measured and model impedance per point, with residuals.
 
-    Columns (SI): ``frequency_Hz``; ``measured_`` and ``model_`` each with ``re_ohm``, ``im_ohm``, ``abs_ohm``,
-    ``phase_deg``; ``residual_abs_rel`` = |Z_meas| / |Z_model| - 1; ``residual_phase_deg`` = phase difference
-    wrapped to (-180, 180]; and, when the measurement has them, ``sigma_abs_rel`` and ``sigma_phase_deg``.
+    Columns (SI): ``frequency_Hz``; ``measured_`` and ``model_`` each with ``re_ohm``, ``im_ohm``,
+    ``abs_ohm``, ``phase_deg``; ``residual_abs_rel`` = |Z_meas| / |Z_model| - 1; ``residual_phase_deg`` =
+    phase difference wrapped to (-180, 180]; and, when the measurement has them, ``sigma_abs_rel`` and
+    ``sigma_phase_deg``.
     """
     m = result.measurement
     z_model = result.model_impedance()

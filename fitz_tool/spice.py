@@ -148,7 +148,8 @@ class _Writer:
 
     def add(self, kind: str, wanted: str, a: str, b: str, value: float, what: str) -> None:
         if not math.isfinite(value) or value < 0 or (value == 0 and kind != "R"):
-            raise OutputError(f"{what} = {value:g}: cannot be written as a SPICE element (needs a positive value)")
+            raise OutputError(f"{what} = {value:g}: cannot be written as a SPICE element "
+                              "(needs a positive value)")
         if kind == "R" and value == 0:
             self.lines.append(f"{self.name('V' + wanted)} {a} {b} 0")
         else:
@@ -230,7 +231,7 @@ def to_spice_subcircuit(result: FitResult, name: str = "FITTED_PART",
     writer.emit(result.circuit.tree, "1", "2")
     from . import __version__
 
-    when = (now or datetime.datetime.now(datetime.timezone.utc)).astimezone(datetime.timezone.utc)
+    when = (now or datetime.datetime.now(datetime.UTC)).astimezone(datetime.UTC)
     prov = result.measurement.provenance
     header = [
         f"* {name}: fitted equivalent circuit, written by fitz_tool {__version__}",

@@ -28,15 +28,6 @@ def _bench_csv(tmp_path, name="inductor_47u.csv", rel_noise=2e-3, phase_noise_de
     return path
 
 
-@pytest.fixture()
-def needs_pipeline():
-    try:
-        import fitz_tool.fitting  # noqa: F401
-        from fitz_tool.readers import read_measurement  # noqa: F401
-    except ImportError as exc:  # the reader and fitter come from other issues
-        pytest.skip(f"reader or fitter not available yet: {exc}")
-
-
 def _outputs(tmp_path):
     out = tmp_path / "out"
     return out, ["--json", str(out / "fit.json"), "--report", str(out / "report.html"), "--spice",
@@ -44,7 +35,7 @@ def _outputs(tmp_path):
                  "--at", "100k"]
 
 
-def test_fit_writes_every_output_with_the_right_values(tmp_path, capsys, needs_pipeline):
+def test_fit_writes_every_output_with_the_right_values(tmp_path, capsys):
     csv = _bench_csv(tmp_path)
     out, options = _outputs(tmp_path)
     assert main(["fit", str(csv), "--model", MODEL, *options]) == 0
@@ -80,7 +71,7 @@ def test_fit_writes_every_output_with_the_right_values(tmp_path, capsys, needs_p
             assert path.stat().st_size > 10_000, path
 
 
-def test_a_bad_model_leaves_no_output(tmp_path, capsys, needs_pipeline):
+def test_a_bad_model_leaves_no_output(tmp_path, capsys):
     csv = _bench_csv(tmp_path)
     out, options = _outputs(tmp_path)
     code = main(["fit", str(csv), "--model", "Rs + + L1", *options])
@@ -90,7 +81,7 @@ def test_a_bad_model_leaves_no_output(tmp_path, capsys, needs_pipeline):
     assert not out.exists()
 
 
-def test_an_output_over_the_input_is_refused_and_nothing_is_written(tmp_path, capsys, needs_pipeline):
+def test_an_output_over_the_input_is_refused_and_nothing_is_written(tmp_path, capsys):
     csv = _bench_csv(tmp_path)
     original = csv.read_bytes()
     out, options = _outputs(tmp_path)

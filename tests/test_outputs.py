@@ -10,7 +10,9 @@ def test_outputs_land_in_new_folders(tmp_path):
     written = write_outputs({tmp_path / "a" / "b" / "x.txt": "hello", tmp_path / "y.bin": b"\x00\x01"})
     assert (tmp_path / "a" / "b" / "x.txt").read_text() == "hello"
     assert (tmp_path / "y.bin").read_bytes() == b"\x00\x01"
-    assert len(written) == 2
+    assert written == [tmp_path / "a" / "b" / "x.txt", tmp_path / "y.bin"]
+    # readable by others like any file the user writes (not the 0600 of a temporary file)
+    assert (tmp_path / "y.bin").stat().st_mode & 0o044 == 0o044
 
 
 def test_an_input_is_never_overwritten_and_nothing_is_written(tmp_path):

@@ -32,10 +32,11 @@ def test_run_record_keeps_every_option_as_text_and_hashes_inputs(tmp_path):
     bench.write_bytes(b"Frequency (Hz),|Z| (ohm)\n1,2\n")
     args = argparse.Namespace(command="fit", file=str(bench), model="auto", at=["100k", "1M"], shunt=None,
                               handler=print)
-    when = datetime.datetime(2031, 1, 2, 3, 4, 5, tzinfo=datetime.timezone.utc)
+    when = datetime.datetime(2031, 1, 2, 3, 4, 5, tzinfo=datetime.UTC)
     record = run_record(args, [str(bench)], "9.9.9", now=when)
     assert "handler" not in record.options
-    assert record.options == {"command": "fit", "file": str(bench), "model": "auto", "at": "100k; 1M", "shunt": ""}
+    expected = {"command": "fit", "file": str(bench), "model": "auto", "at": "100k; 1M", "shunt": ""}
+    assert record.options == expected
     # SHA-256 of the file bytes, computed by hashlib (Python standard library)
     assert record.inputs[0].sha256 == hashlib.sha256(bench.read_bytes()).hexdigest()
     assert record.version == "9.9.9" and record.date == "2031-01-02T03:04:05Z"
@@ -90,7 +91,8 @@ def test_json_turns_nan_and_infinity_into_null():
     json.dumps(data, allow_nan=False)
     assert data["fit"]["reduced_chi_square"] is None
     assert data["derived"]["at"][0]["values"]["Q"]["value"] is None  # infinite Q of a lossless model
-    assert data["parameters"]["L1"]["stderr"] is None and data["correlation"] is None and data["ranking"] is None
+    assert data["parameters"]["L1"]["stderr"] is None
+    assert data["correlation"] is None and data["ranking"] is None
 
 
 def test_curve_table_holds_measured_model_and_residuals():

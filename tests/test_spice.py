@@ -13,6 +13,7 @@ from test_derived import synthetic_result
 
 from fitz_tool.circuit import Circuit
 from fitz_tool.exceptions import OutputError
+from fitz_tool.presets import PRESETS
 from fitz_tool.spice import CPE_TOLERANCE, cpe_network, to_spice_subcircuit
 
 SWEEP = np.geomspace(1e3, 100e6, 41)
@@ -65,14 +66,10 @@ def _values_for(expression: str) -> dict[str, float]:
     return values
 
 
-def test_ngspice_reproduces_every_preset():
-    try:
-        from fitz_tool.presets import PRESETS
-    except ImportError:
-        pytest.skip("fitz_tool.presets is not written yet (fitter issue); runs once it exists")
-    assert PRESETS, "no presets defined"
-    for preset in PRESETS.values():
-        _check_against_ngspice(preset.expression, _values_for(preset.expression))
+@pytest.mark.parametrize("preset", list(PRESETS))
+def test_ngspice_reproduces_every_preset(preset):
+    expression = PRESETS[preset].expression
+    _check_against_ngspice(expression, _values_for(expression))
 
 
 @pytest.mark.parametrize("n", [0.05, 0.5, 0.8, 0.97])
@@ -96,7 +93,7 @@ def test_cpe_network_degrades_outside_the_sweep_as_documented():
 
 def test_header_summarizes_the_fit_and_values_keep_full_precision():
     result = synthetic_result()
-    when = datetime.datetime(2031, 5, 4, 12, 0, tzinfo=datetime.timezone.utc)
+    when = datetime.datetime(2031, 5, 4, 12, 0, tzinfo=datetime.UTC)
     text = to_spice_subcircuit(result, name="CHOKE_22U", now=when)
     lines = text.splitlines()
     assert all(line.startswith("*") for line in lines[: lines.index(".subckt CHOKE_22U 1 2")])

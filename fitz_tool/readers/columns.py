@@ -39,6 +39,8 @@ FORMS: dict[str, tuple[str, ...]] = {
     "v_i_difference": ("frequency", "v_amplitude", "i_amplitude", "z_phase"),
     "ratio": ("frequency", "ratio_magnitude", "ratio_phase"),
 }
+_MEANING = {"v_i_difference": " (z_phase: the phase of V relative to I)",
+            "ratio": " (ratio: part voltage over reference-resistor voltage)"}
 _PREFIX = {"voltage": "v", "current": "i", "impedance": "z", "ratio": "ratio"}
 _AMPLITUDE = {"voltage": "v_amplitude", "current": "i_amplitude", "impedance": "z_magnitude",
               "ratio": "ratio_magnitude"}
@@ -175,12 +177,12 @@ def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: s
 
     complete = [f for f, roles in FORMS.items() if all(candidates.get(r) for r in roles)]
     if not complete:
-        present = {f: sum(1 for r in roles if candidates.get(r)) for f, roles in FORMS.items()}
-        best = max(FORMS, key=lambda f: present[f])
+        missing = {f: sum(1 for r in roles if not candidates.get(r)) for f, roles in FORMS.items()}
+        best = min(FORMS, key=lambda f: missing[f])
         free = [i.header for i in infos if i.index not in taken and _role(i) is None] + list(headers)
         found = ", ".join(repr(h) for h in headers)
         raise InputError(f"{where}: cannot tell which columns hold what (headers found: {found}); name them, "
-                         f"e.g. {_hint(best, candidates, headers, free)}")
+                         f"e.g. {_hint(best, candidates, headers, free)}{_MEANING.get(best, '')}")
     form = complete[0]
     for role in FORMS[form]:
         if len(candidates[role]) > 1:

@@ -135,7 +135,7 @@ def _decimal(rows: list[list[str]], delimiter: str, where: str) -> str:
     if comma and dot and not all(_THOUSANDS_DOT.fullmatch(c) for c in dot):
         raise InputError(f"{where}: numbers use both decimal points ({dot[0]!r}) and decimal commas "
                          f"({comma[0]!r}); export with one decimal mark")
-    return "," if comma or any(_THOUSANDS_DOT.fullmatch(c) for c in cells) else "."
+    return "," if comma else "."
 
 
 def _header(lines: list[str], first: int, delimiter: str, width: int, where: str) -> tuple[list[str], int]:

@@ -3,14 +3,15 @@
 A header splits into a *name* and a *unit*. The unit is taken from, in this order: the last bracket group that
 reads as a unit (``"Frequency (kHz)"``, ``"f [MHz]"``, ``"V(DUT) (mV rms)"``), a ``/unit`` suffix
 (``"Frequency/Hz"``), or a last ``_``/space separated token of two or more letters (``"freq_hz"``,
-``"phase deg"``). A unit is an optional SI prefix (``u``, ``µ`` and ``μ`` all micro; ``m`` milli, ``M`` mega), a base
-unit (Hz, V, A, ohm/Ω, deg/°, rad, dB, V/V) and an optional amplitude convention (rms, pp/p-p/pk-pk, pk/peak).
+``"phase deg"``). A unit is an optional SI prefix (``u``, ``µ`` and ``μ`` all micro; ``m`` milli,
+``M`` mega), a base unit (Hz, V, A, ohm/Ω, deg/°, rad, dB, V/V) and an optional amplitude
+convention (rms, pp/p-p/pk-pk, pk/peak).
 
 The name gives a *kind* (frequency, amplitude, phase, real, imaginary) and a *subject* (voltage across the
 part, current, impedance, transfer ratio), from word lists below; a channel tag (``Ch1``, ``Channel B``,
 ``Input 2``) groups the columns of one channel. The unit fills in what the name leaves open (Hz means
-frequency, A current, ohm impedance, dB a ratio, deg/rad a phase). Nothing here decides between columns:
-that is ``columns.py``.
+frequency, A current, ohm impedance, dB a ratio, deg/rad a phase). Nothing here decides between columns: that
+is ``columns.py``.
 """
 
 from __future__ import annotations
@@ -77,7 +78,8 @@ class HeaderInfo:
     prefix : str
         SI prefix of the unit (``""`` for none).
     base : str
-        Base unit: ``"Hz"``, ``"V"``, ``"A"``, ``"ohm"``, ``"deg"``, ``"rad"``, ``"dB"`` or ``""`` (none/linear).
+        Base unit: ``"Hz"``, ``"V"``, ``"A"``, ``"ohm"``, ``"deg"``, ``"rad"``, ``"dB"`` or ``""``
+        (none/linear).
     convention : str or None
         Amplitude convention stated: ``"peak"``, ``"rms"``, ``"pp"``, or None.
     kind : str or None
@@ -105,7 +107,8 @@ class HeaderInfo:
 def parse_unit(text: str) -> tuple[str, str, str | None] | None:
     """Read a unit such as ``"kHz"``, ``"mV rms"``, ``"Vpp"``, ``"kΩ"``, ``"°"``; None if it is not a unit.
 
-    Returns ``(prefix, base, convention)``; ``base`` is ``""`` for a linear ratio (``V/V``) or a convention alone.
+    Returns ``(prefix, base, convention)``; ``base`` is ``""`` for a linear ratio (``V/V``) or a convention
+    alone.
     """
     compact = re.sub(r"[\s_]+", "", unicodedata.normalize("NFKC", text))
     if not compact:

@@ -1,0 +1,165 @@
+"""A first look at a measurement: range, where it is inductive or capacitive, apparent resonances.
+
+A point is *inductive* when the phase of Z is above +``RESISTIVE_DEG``, *capacitive* below -``RESISTIVE_DEG``,
+else *resistive* (|X| < tan(10 deg) R = 0.18 R). An apparent resonance is a change from inductive to
+capacitive or back (resistive points in between allowed, so noise around 0 deg does not count); its frequency
+is where the phase crosses 0 deg, interpolated linearly in frequency on Im Z (series) or Im(1/Z) (parallel),
+the middle crossing when noise makes several. From capacitive to inductive with rising frequency is a series
+resonance (|Z| minimum); from inductive to capacitive a parallel resonance (|Z| maximum) (Foster's reactance
+theorem; common practice, no source).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from .measurement import Measurement
+from .units import format_quantity
+
+__all__ = ["RESISTIVE_DEG", "Band", "Resonance", "InspectionSummary", "summarize", "format_summary",
+           "measurement_table"]
+
+#: Phase (deg) within which a point counts as resistive.
+RESISTIVE_DEG = 10.0
+
+
+@dataclass(frozen=True)
+class Band:
+    """A run of neighbouring points of one character; ``kind`` is inductive, capacitive or resistive.
+
+    ``f_low`` and ``f_high`` (Hz) are the first and last measured frequencies of the run.
+    """
+
+    kind: str
+    f_low: float
+    f_high: float
+    points: int
+
+
+@dataclass(frozen=True)
+class Resonance:
+    """An apparent resonance: phase zero crossing at ``frequency`` (Hz) with |Z| ``magnitude`` (ohm) there.
+
+    ``kind`` is ``"series"`` (|Z| minimum) or ``"parallel"`` (|Z| maximum); ``extremum`` says which.
+    """
+
+    frequency: float
+    magnitude: float
+    kind: str
+    extremum: str
+
+
+@dataclass(frozen=True)
+class InspectionSummary:
+    """Summary of a measurement (frequencies in Hz, impedances in ohm)."""
+
+    points: int
+    f_min: float
+    f_max: float
+    z_min: float
+    f_at_z_min: float
+    z_max: float
+    f_at_z_max: float
+    bands: tuple[Band, ...]
+    resonances: tuple[Resonance, ...]
+
+
+def _classes(phase_deg: np.ndarray) -> np.ndarray:
+    return np.where(phase_deg > RESISTIVE_DEG, 1, np.where(phase_deg < -RESISTIVE_DEG, -1, 0))
+
+
+def _bands(f: np.ndarray, cls: np.ndarray) -> tuple[Band, ...]:
+    names = {1: "inductive", -1: "capacitive", 0: "resistive"}
+    edges = np.flatnonzero(np.diff(cls)) + 1
+    starts = np.concatenate([[0], edges])
+    stops = np.concatenate([edges, [f.size]])
+    return tuple(Band(names[int(cls[a])], float(f[a]), float(f[b - 1]), int(b - a))
+                 for a, b in zip(starts, stops, strict=True))
+
+
+def _crossing(f: np.ndarray, z: np.ndarray, a: int, b: int, series: bool) -> tuple[float, float]:
+    """Zero crossing of the phase between points a < b: (frequency, |Z|).
+
+    Interpolated linearly in frequency on the quantity that is smooth there: the reactance Im Z at a series
+    resonance, the susceptance Im(1/Z) at a parallel one.
+    """
+    x = z.imag if series else (1 / z).imag
+    sign = np.sign(x[a:b + 1])
+    cross = [a + k for k in range(b - a) if sign[k] != sign[k + 1] or sign[k] == 0]
+    k = cross[len(cross) // 2]
+    t = 0.0 if x[k] == x[k + 1] else x[k] / (x[k] - x[k + 1])
+    mag = np.abs(z)
+    logz = np.log(mag[k]) + t * (np.log(mag[k + 1]) - np.log(mag[k]))
+    return float(f[k] + t * (f[k + 1] - f[k])), float(np.exp(logz))
+
+
+def summarize(measurement: Measurement) -> InspectionSummary:
+    """Points, ranges, inductive/capacitive bands and apparent resonances of a measurement.
+
+    Parameters
+    ----------
+    measurement : Measurement
+        Frequency in Hz, impedance in ohm.
+
+    Returns
+    -------
+    InspectionSummary
+    """
+    f, mag, phase = measurement.frequency, measurement.magnitude, measurement.phase_deg
+    cls = _classes(phase)
+    reactive = np.flatnonzero(cls != 0)
+    resonances = []
+    for a, b in zip(reactive[:-1], reactive[1:], strict=True):
+        if cls[a] != cls[b]:
+            series = bool(cls[a] < cls[b])
+            frequency, magnitude = _crossing(f, measurement.impedance, int(a), int(b), series)
+            resonances.append(Resonance(frequency, magnitude, "series" if series else "parallel",
+                                        "minimum" if series else "maximum"))
+    low, high = int(np.argmin(mag)), int(np.argmax(mag))
+    return InspectionSummary(points=len(measurement), f_min=float(f[0]), f_max=float(f[-1]),
+                             z_min=float(mag[low]), f_at_z_min=float(f[low]), z_max=float(mag[high]),
+                             f_at_z_max=float(f[high]), bands=_bands(f, cls), resonances=tuple(resonances))
+
+
+def format_summary(summary: InspectionSummary, measurement: Measurement) -> str:
+    """The summary as terminal text, engineering notation, with the provenance steps and warnings."""
+    q = format_quantity
+    p = measurement.provenance
+    lines = [f"file      {p.source or '(built in code)'}",
+             f"form      {p.form}",
+             f"points    {summary.points}",
+             f"range     {q(summary.f_min, 'Hz')} to {q(summary.f_max, 'Hz')}",
+             f"|Z|       {q(summary.z_min, 'ohm')} (at {q(summary.f_at_z_min, 'Hz')}) to "
+             f"{q(summary.z_max, 'ohm')} (at {q(summary.f_at_z_max, 'Hz')})",
+             f"character (resistive: |phase| < {RESISTIVE_DEG:g} deg)"]
+    for band in summary.bands:
+        lines.append(f"  {band.kind:<10} {q(band.f_low, 'Hz')} to {q(band.f_high, 'Hz')} "
+                     f"({band.points} points)")
+    if summary.resonances:
+        lines.append("apparent resonances (phase crosses 0 deg)")
+        for r in summary.resonances:
+            lines.append(f"  {r.kind:<8} at {q(r.frequency, 'Hz')}, |Z| {q(r.magnitude, 'ohm')} "
+                         f"(|Z| {r.extremum})")
+    else:
+        lines.append("apparent resonances: none in the measured range")
+    if p.steps:
+        lines.append("steps")
+        lines += [f"  - {step}" for step in p.steps]
+    if p.warnings:
+        lines.append("warnings")
+        lines += [f"  ! {warning}" for warning in p.warnings]
+    return "\n".join(lines)
+
+
+def measurement_table(measurement: Measurement) -> pd.DataFrame:
+    """The normalized impedance table: frequency (Hz), R, X, |Z| (ohm) and phase (deg) per point."""
+    return pd.DataFrame({
+        "frequency_hz": measurement.frequency,
+        "z_real_ohm": measurement.resistance,
+        "z_imag_ohm": measurement.reactance,
+        "z_magnitude_ohm": measurement.magnitude,
+        "z_phase_deg": measurement.phase_deg,
+    })

@@ -1,0 +1,173 @@
+"""From the recognized columns to impedance: units to SI, amplitudes to peak, phases to rad, then Z.
+
+The five input forms (e^{+jwt}, Z = V / I, positive phase inductive):
+
+==================  =====================================  ==================================================
+form                columns                                impedance
+==================  =====================================  ==================================================
+``v_i_phasors``     V, phase V, I (A), phase I             Z = (V_pk / I_pk) e^{j (phi_V - phi_I)}
+``v_shunt``         V, phase V, V_shunt, phase V_shunt     I = V_shunt / R_shunt (``--shunt``), then as above
+``z_polar``         |Z|, phase                             Z = |Z| e^{j phi}
+``z_rect``          R, X                                   Z = R + j X
+``ratio``           H = V_part / V_ref (dB or linear),     Z = R_ref H (``--reference``): the reference
+                    phase of H                             resistor carries the part's current
+==================  =====================================  ==================================================
+
+With V and I amplitudes and one ``z_phase`` column (phase of V relative to I), Z = (V_pk / I_pk) e^{j phi}.
+All conversions are multiplicative (prefix factors, convention factors, 1/R_shunt, R_ref), so relative
+amplitude noise and absolute phase noise pass through unchanged and no per-point sigma is attached.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+
+from ..exceptions import InputError
+from ..phasor import db_to_linear, phase_to_radians, phasors_to_impedance, polar_to_complex, to_peak
+from ..units import prefix_factor
+from .columns import ColumnPlan
+from .headers import HeaderInfo
+
+__all__ = ["AMPLITUDE_ROLES", "unit_label", "convert_columns", "build_impedance"]
+
+#: Roles whose values are magnitudes (never negative).
+AMPLITUDE_ROLES = ("v_amplitude", "i_amplitude", "z_magnitude", "ratio_magnitude")
+_SI = {"frequency": ("Hz",), "v_amplitude": ("V",), "i_amplitude": ("A", "V"), "z_magnitude": ("ohm",),
+       "z_real": ("ohm",), "z_imag": ("ohm",), "ratio_magnitude": ("dB",)}
+_CONVENTION_WORDS = {"peak": "peak", "rms": "rms", "pp": "peak-to-peak"}
+
+
+def unit_label(role: str, info: HeaderInfo) -> str:
+    """The unit of a column as the provenance records it (``"kHz"``, ``"mV rms"``, ``"deg (assumed)"``)."""
+    if info.unit_text:
+        return info.unit_text
+    assumed = {"frequency": "Hz", "v_amplitude": "V", "i_amplitude": "A", "z_magnitude": "ohm",
+               "z_real": "ohm", "z_imag": "ohm", "ratio_magnitude": "V/V"}.get(role, "deg")
+    return f"{assumed}{' ' + info.convention if info.convention else ''} (assumed)"
+
+
+def _convert(role: str, info: HeaderInfo, raw: np.ndarray, where: str) -> tuple[np.ndarray, str]:
+    """One column to SI (amplitudes to peak, phases to rad); returns values and the step in words."""
+    label = f"{role} from {info.header!r}"
+    if role.endswith("_phase"):
+        unit = info.base or "deg"
+        if unit not in ("deg", "rad"):
+            raise InputError(f"{where}: column {info.header!r} is in {info.unit_text!r}, which is not a "
+                             f"phase unit (deg or rad); name the right column with --map {role}=HEADER")
+        return phase_to_radians(raw, unit), f"{label}: {unit_label(role, info)} -> rad"
+    allowed = _SI[role]
+    if info.base and info.base not in allowed:
+        raise InputError(f"{where}: column {info.header!r} is in {info.unit_text!r}, which does not fit "
+                         f"{role} (expected {' or '.join(allowed)}); name the right column with --map")
+    if role == "ratio_magnitude":
+        if info.base == "dB":
+            return db_to_linear(raw), f"{label}: dB -> linear ratio (10^(dB/20))"
+        return raw.copy(), f"{label}: linear ratio"
+    factor = prefix_factor(info.prefix)
+    unit = info.base or allowed[0]
+    values = raw * factor
+    step = (f"{label}: {unit_label(role, info)} -> {unit} (x {factor:g})" if factor != 1
+            else f"{label}: in {unit_label(role, info)}")
+    if role in ("v_amplitude", "i_amplitude"):
+        convention = info.convention or "peak"
+        values = to_peak(values, convention)
+        if convention != "peak":
+            step += f", {_CONVENTION_WORDS[convention]} -> peak (x {to_peak(1.0, convention):.6g})"
+        step += "" if info.convention else ", amplitude convention not stated: taken as peak"
+    if info.negated:
+        values = -values
+        step += ", sign reversed (the header holds the negative)"
+    return values, step
+
+
+def convert_columns(plan: ColumnPlan, raw: Mapping[str, np.ndarray],
+                    where: str) -> tuple[dict[str, np.ndarray], list[str], list[str]]:
+    """Convert each column of the plan; returns (role -> values, steps, warnings).
+
+    Parameters
+    ----------
+    plan : ColumnPlan
+        The columns chosen for the form.
+    raw : mapping of str to ndarray
+        Role -> numbers as read (NaN where missing).
+    where : str
+        File name for messages.
+    """
+    values, steps, warnings = {}, [], []
+    for role, info in plan.columns.items():
+        values[role], step = _convert(role, info, np.asarray(raw[role], dtype=float), where)
+        steps.append(step)
+    v, i = plan.columns.get("v_amplitude"), plan.columns.get("i_amplitude")
+    if v is not None and i is not None and (v.convention is None) != (i.convention is None):
+        stated, unstated = (v, i) if v.convention else (i, v)
+        warnings.append(f"column {stated.header!r} states {_CONVENTION_WORDS[stated.convention]} but "
+                        f"{unstated.header!r} states no amplitude convention (taken as peak); if both are "
+                        f"the same, |Z| is off by the factor between them")
+    return values, steps, warnings
+
+
+def build_impedance(plan: ColumnPlan, values: Mapping[str, np.ndarray], shunt: float | None,
+                    reference: float | None, where: str) -> tuple[np.ndarray, str, list[str], list[str]]:
+    """Impedance in ohm from converted columns; returns (Z, form name, steps, warnings).
+
+    Parameters
+    ----------
+    plan : ColumnPlan
+        Chosen form and columns.
+    values : mapping of str to ndarray
+        Role -> SI values (amplitudes peak, phases rad), as from ``convert_columns``.
+    shunt : float or None
+        Series shunt resistance in ohm (form ``v_shunt``).
+    reference : float or None
+        Reference resistance in ohm (form ``ratio``).
+    where : str
+        File name for messages.
+    """
+    steps: list[str] = []
+    warnings: list[str] = []
+    for name, value in (("--shunt", shunt), ("--reference", reference)):
+        if value is not None and not (np.isfinite(value) and value > 0):
+            raise InputError(f"{where}: {name} {value!r}: must be a resistance above 0 ohm")
+    if plan.form == "z_polar":
+        z = polar_to_complex(values["z_magnitude"], values["z_phase"])
+        steps.append("Z = |Z| e^(j phase)")
+        form = "z_polar"
+    elif plan.form == "z_rect":
+        z = values["z_real"] + 1j * values["z_imag"]
+        steps.append("Z = R + j X")
+        form = "z_rect"
+    elif plan.form == "ratio":
+        if reference is None:
+            ratio_header = plan.columns["ratio_magnitude"].header
+            raise InputError(f"{where}: a transfer-ratio file (column {ratio_header!r}) "
+                             f"needs the reference resistor: pass --reference OHMS")
+        z = reference * polar_to_complex(values["ratio_magnitude"], values["ratio_phase"])
+        steps.append(f"Z = R_ref * H with R_ref = {reference:g} ohm (--reference), H = V_part / V_ref")
+        form = "ratio"
+    else:
+        i_info = plan.columns["i_amplitude"]
+        current = values["i_amplitude"]
+        form = "v_i_phasors"
+        if i_info.base == "V":
+            if shunt is None:
+                raise InputError(f"{where}: column {i_info.header!r} is a voltage, so the current was "
+                                 f"measured across a shunt: pass --shunt OHMS (its resistance)")
+            current = current / shunt
+            form = "v_shunt"
+            steps.append(f"current = shunt voltage / {shunt:g} ohm (--shunt)")
+        elif shunt is not None:
+            warnings.append(f"--shunt {shunt:g} ignored: column {i_info.header!r} already holds current")
+        if plan.form == "v_i":
+            z = phasors_to_impedance(values["v_amplitude"], values["v_phase"], current, values["i_phase"])
+            steps.append("Z = V / I: |Z| = V_pk / I_pk, phase = phase(V) - phase(I) wrapped to "
+                         "(-180, 180] deg")
+        else:
+            z = polar_to_complex(values["v_amplitude"] / current, values["z_phase"])
+            steps.append("Z = V / I: |Z| = V_pk / I_pk, phase = the phase of V relative to I")
+    if reference is not None and form != "ratio":
+        warnings.append(f"--reference {reference:g} ignored: the file is not a transfer ratio ({form})")
+    if shunt is not None and form in ("z_polar", "z_rect", "ratio"):
+        warnings.append(f"--shunt {shunt:g} ignored: the file holds no shunt voltage ({form})")
+    return z, form, steps, warnings

@@ -1,0 +1,156 @@
+"""The delimited-text reader: bytes -> table -> columns -> impedance -> a clean, sorted Measurement.
+
+Bad data, as a user expects it (never silent: every drop is counted in ``Provenance.warnings``):
+
+=====================================================  =======================================================
+case                                                   handling
+=====================================================  =======================================================
+missing cell or no-reading marker in a used column     row dropped, counted
+text that is not a number in a used column             error naming line and column
+frequency 0 Hz (a DC point)                            row dropped, counted
+negative frequency or negative amplitude/|Z|/ratio     error naming line and column
+current (or shunt voltage) of zero                     row dropped, counted (Z undefined)
+|Z| = 0                                                row dropped, counted (no phase, no log)
+rows out of order                                      sorted by frequency, recorded in the steps
+repeated frequency with the same impedance             repeat dropped, counted
+repeated frequency with a different impedance          error naming both lines
+=====================================================  =======================================================
+"""
+
+from __future__ import annotations
+
+import hashlib
+from pathlib import Path
+
+import numpy as np
+
+from ..exceptions import InputError
+from ..measurement import Measurement, Provenance
+from .columns import plan_columns
+from .delimited import decode_bytes, numeric_column, split_table
+from .forms import AMPLITUDE_ROLES, build_impedance, convert_columns, unit_label
+
+__all__ = ["read_delimited"]
+
+
+def _lines(lines: np.ndarray, mask: np.ndarray) -> str:
+    picked = [str(n) for n in lines[mask][:5]]
+    return ", ".join(picked) + ("..." if int(mask.sum()) > 5 else "")
+
+
+def _refuse(values: dict[str, np.ndarray], plan, lines: np.ndarray, where: str) -> None:
+    """Raise for values no instrument writes: negative frequency or a negative amplitude."""
+    for role in ("frequency", *AMPLITUDE_ROLES):
+        if role not in values or (role == "ratio_magnitude" and plan.columns[role].base == "dB"):
+            continue
+        bad = np.flatnonzero(values[role] < 0)
+        if bad.size:
+            k = bad[0]
+            what = "frequency" if role == "frequency" else "an amplitude"
+            header = plan.columns[role].header
+            raise InputError(f"{where}: line {lines[k]}, column {header!r}: negative value "
+                             f"for {what}; check the column (--map) or correct that row")
+
+
+def _drop(keep: np.ndarray, mask: np.ndarray, reason: str, lines: np.ndarray, warnings: list[str]) -> None:
+    hit = mask & keep
+    if hit.any():
+        warnings.append(f"dropped {int(hit.sum())} row(s) {reason} (line(s) {_lines(lines, hit)})")
+        keep &= ~hit
+
+
+def _order_and_dedupe(f: np.ndarray, z: np.ndarray, lines: np.ndarray, steps: list[str],
+                      warnings: list[str], where: str) -> tuple[np.ndarray, np.ndarray]:
+    order = np.argsort(f, kind="stable")
+    if np.any(np.diff(f) < 0):
+        how = "descending" if np.all(np.diff(f) <= 0) else "no"
+        steps.append(f"sorted {f.size} rows by frequency (the file lists them in {how} order)")
+    f, z, lines = f[order], z[order], lines[order]
+    repeat = np.concatenate([[False], np.diff(f) == 0])
+    for k in np.flatnonzero(repeat):
+        if not np.isclose(z[k], z[k - 1], rtol=1e-12, atol=0.0):
+            raise InputError(f"{where}: lines {lines[k - 1]} and {lines[k]} are both at {f[k]:g} Hz with "
+                             f"different readings; delete one of them")
+    if repeat.any():
+        warnings.append(f"dropped {int(repeat.sum())} repeated row(s) with the same frequency and reading "
+                        f"(line(s) {_lines(lines, repeat)})")
+    return f[~repeat], z[~repeat]
+
+
+def read_delimited(path: str | Path, shunt: float | None = None, reference: float | None = None,
+                   column_map: dict[str, str] | None = None) -> Measurement:
+    """Read a delimited text export (any of the five forms) into a Measurement.
+
+    Parameters
+    ----------
+    path : str or Path
+        The bench file; never modified.
+    shunt : float or None
+        Series shunt resistance in ohm, needed when the current column is a voltage.
+    reference : float or None
+        Reference resistance in ohm, needed for a transfer-ratio file.
+    column_map : dict of str to str or None
+        Role -> header (or ``#N``) overriding header recognition.
+
+    Returns
+    -------
+    Measurement
+        Frequency in Hz (ascending, unique), impedance in ohm, no sigmas (all conversions are
+        multiplicative), provenance with file, sha256, form, columns, units, steps and warnings.
+
+    Raises
+    ------
+    InputError
+        Unreadable file, unrecognized or ambiguous columns, bad cells (line and column named), missing
+        ``--shunt``/``--reference``, or no usable row.
+    """
+    path = Path(path)
+    where = str(path)
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"{where}: cannot read the file ({exc.strerror or exc})") from None
+    text, encoding = decode_bytes(raw, where)
+    table = split_table(text, encoding, where)
+    if not table.rows:
+        raise InputError(f"{where}: the table below the header has no rows")
+    plan = plan_columns(table.headers, column_map or {}, where)
+    lines = np.asarray(table.lines)
+    first, last = int(lines.min()), int(lines.max())
+    steps = [f"read {path.name}: {table.describe()}; header {list(table.headers)}; {len(lines)} data rows "
+             f"(lines {first}-{last})", *table.notes, *plan.steps]
+    numbers = {role: numeric_column(table, info.index, where) for role, info in plan.columns.items()}
+    values, convert_steps, warnings = convert_columns(plan, numbers, where)
+    steps += convert_steps
+
+    keep = np.ones(lines.size, dtype=bool)
+    missing = np.zeros(lines.size, dtype=bool)
+    for array in values.values():
+        missing |= ~np.isfinite(array)
+    _drop(keep, missing, "with missing or no-reading cells", lines, warnings)
+    _refuse({r: v[keep] for r, v in values.items()}, plan, lines[keep], where)
+    _drop(keep, values["frequency"] == 0, "at 0 Hz (a DC point has no phase)", lines, warnings)
+    if "i_amplitude" in values:
+        _drop(keep, values["i_amplitude"] == 0, "with zero current (Z = V/I undefined)", lines, warnings)
+    z, form, z_steps, z_warnings = build_impedance(plan, {r: v[keep] for r, v in values.items()}, shunt,
+                                                   reference, where)
+    steps += z_steps
+    warnings += z_warnings
+    frequency, kept_lines = values["frequency"][keep], lines[keep]
+    zero = np.zeros(lines.size, dtype=bool)
+    zero[np.flatnonzero(keep)[z == 0]] = True
+    _drop(keep, zero, "with |Z| = 0 (no phase, no logarithm)", lines, warnings)
+    z, frequency, kept_lines = z[z != 0], frequency[z != 0], kept_lines[z != 0]
+    if frequency.size == 0:
+        raise InputError(f"{where}: no usable row left ({'; '.join(warnings)})")
+    frequency, z = _order_and_dedupe(frequency, z, kept_lines, steps, warnings, where)
+    provenance = Provenance(
+        source=where,
+        sha256=hashlib.sha256(raw).hexdigest(),
+        form=form,
+        columns={role: info.header for role, info in plan.columns.items()},
+        units={role: unit_label(role, info) for role, info in plan.columns.items()},
+        steps=tuple(steps),
+        warnings=tuple(warnings),
+    )
+    return Measurement(frequency=frequency, impedance=z, provenance=provenance)
