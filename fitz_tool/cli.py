@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import io
 import json
+import os
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -149,7 +150,8 @@ def _parse_bounds(items: Sequence[str]) -> dict[str, tuple[float, float]]:
         if ":" not in text:
             raise InputError(f"--bound {item!r}: expected NAME=LOW:HIGH, e.g. Rs=1m:10")
         low, high = text.split(":", 1)
-        bounds[name] = (parse_quantity(low, "", f"--bound {name} low"), parse_quantity(high, "", f"--bound {name} high"))
+        bounds[name] = (parse_quantity(low, "", f"--bound {name} low"),
+                        parse_quantity(high, "", f"--bound {name} high"))
     return bounds
 
 
@@ -265,6 +267,11 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("fitz-tool: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # the reader of our output (e.g. `| head`) went away; nothing is wrong with the work done
+        # (Python docs, "Note on SIGPIPE"): point stdout at devnull so the exit flush stays quiet.
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
 
 
 if __name__ == "__main__":

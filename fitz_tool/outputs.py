@@ -18,7 +18,9 @@ def _umask() -> int:
     return mask
 
 
-def write_outputs(contents: Mapping[str | Path, str | bytes], inputs: Iterable[str | Path] = ()) -> list[Path]:
+def write_outputs(
+    contents: Mapping[str | Path, str | bytes], inputs: Iterable[str | Path] = ()
+) -> list[Path]:
     """Write every ``path -> text or bytes`` or nothing.
 
     Parent folders are created. Each file is first written to a temporary file beside its target; only when

@@ -8,7 +8,8 @@ from fitz_tool.measurement import Measurement, Provenance
 
 
 def test_measurement_is_read_only_and_records_selection():
-    m = Measurement(np.array([1e3, 1e4, 1e5]), np.array([1 + 1j, 2 + 2j, 3 + 3j]), provenance=Provenance("a.csv"))
+    m = Measurement(np.array([1e3, 1e4, 1e5]), np.array([1 + 1j, 2 + 2j, 3 + 3j]),
+                    provenance=Provenance("a.csv"))
     with pytest.raises(ValueError):
         m.frequency[0] = 5.0
     kept = m.select(m.frequency > 2e3, "kept points above 2 kHz")
@@ -18,7 +19,8 @@ def test_measurement_is_read_only_and_records_selection():
 
 
 def test_polar_views_follow_the_inductive_positive_convention():
-    # Z = j w L is inductive: phase +90 deg, positive reactance (e^{+jwt} convention, common practice, no source).
+    # Z = j w L is inductive: phase +90 deg, positive reactance
+    # (e^{+jwt} convention, common practice, no source).
     f = np.array([1e3])
     m = Measurement(f, 1j * 2 * np.pi * f * 1e-3)
     assert m.phase_deg[0] == pytest.approx(90.0)
