@@ -140,18 +140,34 @@ def _boxes(circuit: Circuit, m: Measurement, free: tuple[str, ...],
 
 def _local_fit(problem: FitProblem, x0: np.ndarray, b_lo: np.ndarray, b_hi: np.ndarray,
                scale_covar: bool) -> lmfit.minimizer.MinimizerResult:
-    """One Levenberg-Marquardt run (lmfit ``leastsq`` with the exact Jacobian) from ``x0``."""
-    params = lmfit.Parameters()
+    """One local fit from ``x0`` with the exact Jacobian.
+
+    Levenberg-Marquardt (lmfit ``leastsq``) first; when it stops near a bound or does not converge within
+    its budget, the bounded trust-region method (lmfit ``least_squares``), which handles active bounds
+    directly, continues from where it stopped.
+    """
     span = b_hi - b_lo
-    for i, x in enumerate(np.clip(x0, b_lo + 1e-6 * span, b_hi - 1e-6 * span)):
-        params.add(f"p{i}", value=float(x), min=float(b_lo[i]), max=float(b_hi[i]))
-    keys = list(params)
+    k = len(x0)
 
-    def vector(p: lmfit.Parameters) -> np.ndarray:
-        return np.array([p[k].value for k in keys])
+    def run(start: np.ndarray, method: str) -> lmfit.minimizer.MinimizerResult:
+        params = lmfit.Parameters()
+        for i, x in enumerate(np.clip(start, b_lo + 1e-6 * span, b_hi - 1e-6 * span)):
+            params.add(f"p{i}", value=float(x), min=float(b_lo[i]), max=float(b_hi[i]))
+        keys = list(params)
 
-    return lmfit.minimize(lambda p: problem.residual(vector(p)), params, method="leastsq",
-                          Dfun=lambda p: problem.jacobian(vector(p)), scale_covar=scale_covar)
+        def vector(p: lmfit.Parameters) -> np.ndarray:
+            return np.array([p[key].value for key in keys])
+
+        return lmfit.minimize(lambda p: problem.residual(vector(p)), params, method=method,
+                              Dfun=lambda p: problem.jacobian(vector(p)), scale_covar=scale_covar,
+                              max_nfev=100 * (k + 1))
+
+    out = run(x0, "leastsq")
+    x = _vector(out)
+    if out.success and np.all(np.minimum(x - b_lo, b_hi - x) > 0.05):
+        return out
+    trial = run(x, "least_squares")
+    return trial if trial.chisqr <= out.chisqr or not out.success else out
 
 
 def _problem(circuit: Circuit, m: Measurement, free: tuple[str, ...],
@@ -374,7 +390,8 @@ def _assess(problem: FitProblem, m: Measurement, out: lmfit.minimizer.MinimizerR
                              f"{f_text}, e.g. a resonance or corner outside the sweep; fix it or use a "
                              "simpler model")
             continue
-        why = f"at the {at_bound[name]} bound: no standard error there" if name in at_bound else note
+        why = note if name not in at_bound or dof <= 0 else \
+            f"at the {at_bound[name]} bound: no standard error there"
         parameters[name] = ParameterEstimate(name, value, None, unit, at_bound=at_bound.get(name),
                                              stderr_note=why)
 

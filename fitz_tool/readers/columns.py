@@ -1,15 +1,20 @@
 """Deciding which column fills which role, from the headers (``headers.py``) and the user's ``--map``.
 
 Roles: ``frequency``, ``v_amplitude``, ``v_phase``, ``i_amplitude``, ``i_phase``, ``z_magnitude``,
-``z_phase``, ``z_real``, ``z_imag``, ``ratio_magnitude``, ``ratio_phase``. With voltage and current
-amplitudes, ``z_phase`` is the phase of V relative to I (only ever taken from ``--map`` or a header that
-names Z, because the sign of a bare "phase difference" column depends on the instrument).
+``z_phase``, ``z_real``, ``z_imag``, ``ratio_magnitude``, ``ratio_phase``, and the LCR-meter readings
+``c_series``, ``l_series``, ``c_parallel``, ``l_parallel``, ``r_series``, ``r_parallel``, ``dissipation``,
+``quality`` (``lcr.py``; a resistance column such as ``Rs`` or ``R`` can be ``z_real`` or ``r_series``).
+With voltage and current amplitudes, ``z_phase`` is the phase of V relative to I (only ever taken from
+``--map`` or a header that names Z, because the sign of a bare "phase difference" column depends on the
+instrument).
 
 Rules, in order:
 
 1. ``--map ROLE=HEADER`` (header as written, case and surrounding spaces ignored, or ``#N`` for the N-th
    column) wins and takes that column out of automatic recognition.
-2. Each header gives a role when its name and unit say it unambiguously.
+2. Each header gives a role when its name and unit say it unambiguously. A lone magnitude that names no
+   subject (``mag``, ``Magnitude``) beside a phase is |Z| in ohm when no column of the file names a voltage,
+   current or ratio and its unit is not V, A or dB; this assumption is a warning.
 3. A phase column that names no subject takes the subject of its channel (``Ch1 Phase`` beside
    ``Ch1 V(DUT)``); else, when every unpaired phase column directly follows an unpaired amplitude column, the
    two are paired; else, when only one family of amplitudes is present (|Z| or a ratio), it is its phase.
@@ -24,12 +29,15 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 from ..exceptions import InputError
-from .headers import HeaderInfo, parse_header
+from .headers import LCR, HeaderInfo, parse_header
+from .lcr import LCR_FORMS
 
 __all__ = ["ROLES", "FORMS", "ColumnPlan", "plan_columns"]
 
 ROLES: tuple[str, ...] = ("frequency", "v_amplitude", "v_phase", "i_amplitude", "i_phase", "z_magnitude",
-                          "z_phase", "z_real", "z_imag", "ratio_magnitude", "ratio_phase")
+                          "z_phase", "z_real", "z_imag", "ratio_magnitude", "ratio_phase",
+                          "c_series", "l_series", "c_parallel", "l_parallel", "r_series", "r_parallel",
+                          "dissipation", "quality")
 
 #: Forms in order of preference, with the roles each needs.
 FORMS: dict[str, tuple[str, ...]] = {
@@ -38,6 +46,7 @@ FORMS: dict[str, tuple[str, ...]] = {
     "v_i": ("frequency", "v_amplitude", "v_phase", "i_amplitude", "i_phase"),
     "v_i_difference": ("frequency", "v_amplitude", "i_amplitude", "z_phase"),
     "ratio": ("frequency", "ratio_magnitude", "ratio_phase"),
+    **LCR_FORMS,
 }
 _MEANING = {"v_i_difference": " (z_phase: the phase of V relative to I)",
             "ratio": " (ratio: part voltage over reference-resistor voltage)"}
@@ -58,25 +67,52 @@ class ColumnPlan:
         Role -> the column used for it.
     steps : tuple of str
         How the columns were chosen, in words (mapped, paired, not used).
+    warnings : tuple of str
+        Assumptions the user should know about (a bare magnitude taken as |Z|).
     """
 
     form: str
     columns: dict[str, HeaderInfo]
     steps: tuple[str, ...]
+    warnings: tuple[str, ...] = ()
 
 
-def _role(info: HeaderInfo) -> str | None:
+def _roles(info: HeaderInfo) -> tuple[str, ...]:
+    """Roles a column could fill (a resistance can be the real part of Z or an LCR meter's Rs)."""
     if info.kind == "frequency":
-        return "frequency"
+        return ("frequency",)
+    if info.kind in LCR.values():
+        return (info.kind,)
     if info.subject is None:
-        return None
+        return ()
     if info.kind == "amplitude":
-        return _AMPLITUDE[info.subject]
+        return (_AMPLITUDE[info.subject],)
     if info.kind == "phase":
-        return f"{_PREFIX[info.subject]}_phase"
-    if info.subject == "impedance" and info.kind in ("real", "imag"):
-        return f"z_{info.kind}"
-    return None
+        return (f"{_PREFIX[info.subject]}_phase",)
+    if info.subject == "impedance" and info.kind == "real":
+        return ("z_real",) if info.negated else ("z_real", "r_series")
+    if info.subject == "impedance" and info.kind == "imag":
+        return ("z_imag",)
+    return ()
+
+
+def _bare_magnitude(infos: list[HeaderInfo], taken: set[int], steps: list[str],
+                    warnings: list[str]) -> list[HeaderInfo]:
+    """Take a lone subjectless magnitude as |Z| when nothing in the file names V, I or a ratio."""
+    bare = [k for k, o in enumerate(infos) if o.kind == "amplitude" and o.subject is None and k not in taken]
+    named = {o.subject for o in infos if o.subject is not None}
+    phases = [o for o in infos if o.kind == "phase" and o.subject in (None, "impedance")]
+    if len(bare) != 1 or named - {"impedance"} or not phases or infos[bare[0]].base not in ("", "ohm"):
+        return infos
+    if any(o.kind == "amplitude" and o.subject == "impedance" for o in infos):
+        return infos
+    k = bare[0]
+    out = list(infos)
+    out[k] = dataclasses.replace(infos[k], subject="impedance")
+    steps.append(f"column {infos[k].header!r}: a magnitude naming no quantity, taken as |Z|")
+    warnings.append(f"column {infos[k].header!r} names no quantity and no unit; read as |Z| in ohm (nothing "
+                    f"in the file says voltage, current or ratio); if it is not, name it with --map")
+    return out
 
 
 def _find(headers: Sequence[str], wanted: str, role: str, where: str) -> int:
@@ -168,18 +204,20 @@ def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: s
         mapped[role] = infos[index]
         steps.append(f"column {headers[index]!r} is {role} (--map)")
     taken = {m.index for m in mapped.values()}
+    warnings: list[str] = []
+    infos = _bare_magnitude(infos, taken, steps, warnings)
     infos = _resolve_phases(infos, taken, steps)
     candidates: dict[str, list[HeaderInfo]] = {role: [info] for role, info in mapped.items()}
     for info in infos:
-        role = _role(info)
-        if role is not None and info.index not in taken and role not in mapped:
-            candidates.setdefault(role, []).append(info)
+        for role in _roles(info):
+            if info.index not in taken and role not in mapped:
+                candidates.setdefault(role, []).append(info)
 
     complete = [f for f, roles in FORMS.items() if all(candidates.get(r) for r in roles)]
     if not complete:
         missing = {f: sum(1 for r in roles if not candidates.get(r)) for f, roles in FORMS.items()}
         best = min(FORMS, key=lambda f: missing[f])
-        free = [i.header for i in infos if i.index not in taken and _role(i) is None] + list(headers)
+        free = [i.header for i in infos if i.index not in taken and not _roles(i)] + list(headers)
         found = ", ".join(repr(h) for h in headers)
         raise InputError(f"{where}: cannot tell which columns hold what (headers found: {found}); name them, "
                          f"e.g. {_hint(best, candidates, headers, free)}{_MEANING.get(best, '')}")
@@ -196,4 +234,4 @@ def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: s
     unused = [repr(h) for k, h in enumerate(headers) if k not in used]
     if unused:
         steps.append(f"columns not used: {', '.join(unused)}")
-    return ColumnPlan(form=form, columns=columns, steps=tuple(steps))
+    return ColumnPlan(form=form, columns=columns, steps=tuple(steps), warnings=tuple(warnings))

@@ -5,9 +5,11 @@ Layout rules:
 * Encoding: UTF-8 with BOM, UTF-16 with BOM, UTF-8, else Latin-1 (which reads any byte, so it is last).
 * Delimiter: tab, semicolon, comma or runs of spaces, whichever splits the most lines into rows of numbers of
   one width (ties in that order). Quoted cells follow the usual CSV rules.
-* The header is the line just above the first row of numbers; a line of units only (``Hz;Ohm;deg``) just
-  above the numbers is joined to the header above it (``Frequency (Hz)``). Everything above is preamble
-  (instrument settings, dates), skipped and counted. A leading ``#`` or ``!`` on the header line is ignored.
+* The header is the line just above the first row of numbers (a table with no header, such as ngspice
+  ``wrdata`` output, is read only when ``--map ROLE=#N`` names its columns); a line of units only
+  (``Hz;Ohm;deg``) just above the numbers is joined to the header above it (``Frequency (Hz)``).
+  Everything above is preamble (instrument settings, dates), skipped and counted. A leading ``#`` or ``!``
+  on the header line is ignored.
 * Decimal mark: a comma when the numbers use one (only possible when the delimiter is not a comma); dots
   that then appear only as thousands separators (``1.234,5``) are removed. Mixed marks are refused.
 * Cells: empty cells and instrument no-reading markers (``NaN``, ``n/a``, ``---``, ``***``) are *missing*
@@ -138,12 +140,20 @@ def _decimal(rows: list[list[str]], delimiter: str, where: str) -> str:
     return "," if comma else "."
 
 
-def _header(lines: list[str], first: int, delimiter: str, width: int, where: str) -> tuple[list[str], int]:
-    """Header cells for the table whose first data row is ``lines[first]``; also the header's line index."""
+def _header(lines: list[str], first: int, delimiter: str, width: int, where: str,
+            headerless: bool) -> tuple[list[str], int]:
+    """Header cells for the table whose first data row is ``lines[first]``; also the header's line index.
+
+    A table with no line above it gets the headers ``#1`` ... ``#N`` when ``headerless`` (the user named
+    its columns with ``--map ROLE=#N``); header index -1 then.
+    """
     above = [k for k in range(first) if lines[k].strip()]
+    if not above and headerless:
+        return [f"#{k + 1}" for k in range(width)], -1
     if not above:
-        raise InputError(f"{where}: no header line above the first row of numbers (line {first + 1}); add a "
-                         f"line naming the columns, e.g. Frequency (Hz),|Z| (ohm),Phase (deg)")
+        raise InputError(f"{where}: no header line above the first row of numbers (line {first + 1}); name "
+                         f"the columns by position, e.g. for ngspice wrdata output (frequency, real, "
+                         f"imaginary): --map frequency=#1 --map z_real=#2 --map z_imag=#3")
 
     def cells_of(k: int) -> list[str]:
         text = lines[k].strip().lstrip("#!").strip()
@@ -164,8 +174,11 @@ def _header(lines: list[str], first: int, delimiter: str, width: int, where: str
     return cells, k
 
 
-def split_table(text: str, encoding: str, where: str) -> TextTable:
-    """Find preamble, header and data rows in the text of a delimited export (see the module docstring)."""
+def split_table(text: str, encoding: str, where: str, headerless: bool = False) -> TextTable:
+    """Find preamble, header and data rows in the text of a delimited export (see the module docstring).
+
+    ``headerless`` allows a table with no header line (columns then named ``#1`` ... ``#N``).
+    """
     lines = text.splitlines()
     delimiter, score = _choose_delimiter(lines)
     if score == 0:
@@ -173,9 +186,11 @@ def split_table(text: str, encoding: str, where: str) -> TextTable:
                          f"semicolon, tab or spaces, below a header line)")
     first = next(k for k, line in enumerate(lines) if _is_data(_cells(line, delimiter)))
     width = len(_cells(lines[first], delimiter))
-    headers, header_index = _header(lines, first, delimiter, width, where)
+    headers, header_index = _header(lines, first, delimiter, width, where, headerless)
     notes = []
-    if header_index:
+    if header_index < 0:
+        notes.append(f"no header line: columns named #1 to #{width} by position")
+    elif header_index:
         notes.append(f"skipped {header_index} preamble line(s) above the header (line {header_index + 1})")
     rows, numbers, skipped = [], [], []
     for k in range(header_index + 1, len(lines)):

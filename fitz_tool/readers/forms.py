@@ -14,6 +14,8 @@ form                columns                                impedance
 ==================  =====================================  ==================================================
 
 With V and I amplitudes and one ``z_phase`` column (phase of V relative to I), Z = (V_pk / I_pk) e^{j phi}.
+LCR-meter pairs (Cs-Rs, Ls-Q, Cp-D, ...) go through ``lcr.py``. A |Z| in dB re 1 ohm (``dBohm``) is
+|Z| = 10^(dB/20) ohm (common practice, no source).
 All conversions are multiplicative (prefix factors, convention factors, 1/R_shunt, R_ref), so relative
 amplitude noise and absolute phase noise pass through unchanged and no per-point sigma is attached.
 """
@@ -29,13 +31,20 @@ from ..phasor import db_to_linear, phase_to_radians, phasors_to_impedance, polar
 from ..units import prefix_factor
 from .columns import ColumnPlan
 from .headers import HeaderInfo
+from .lcr import LCR_FORMS, lcr_to_impedance
 
 __all__ = ["AMPLITUDE_ROLES", "unit_label", "convert_columns", "build_impedance"]
 
 #: Roles whose values are magnitudes (never negative).
 AMPLITUDE_ROLES = ("v_amplitude", "i_amplitude", "z_magnitude", "ratio_magnitude")
-_SI = {"frequency": ("Hz",), "v_amplitude": ("V",), "i_amplitude": ("A", "V"), "z_magnitude": ("ohm",),
-       "z_real": ("ohm",), "z_imag": ("ohm",), "ratio_magnitude": ("dB",)}
+_SI = {"frequency": ("Hz",), "v_amplitude": ("V",), "i_amplitude": ("A", "V"),
+       "z_magnitude": ("ohm", "dBohm"), "z_real": ("ohm",), "z_imag": ("ohm",), "ratio_magnitude": ("dB",),
+       "c_series": ("F",),
+       "c_parallel": ("F",), "l_series": ("H",), "l_parallel": ("H",), "r_series": ("ohm",),
+       "r_parallel": ("ohm",), "dissipation": ("", "%"), "quality": ("",)}
+_ASSUMED = {"frequency": "Hz", "v_amplitude": "V", "i_amplitude": "A", "z_magnitude": "ohm", "z_real": "ohm",
+            "z_imag": "ohm", "ratio_magnitude": "V/V", "c_series": "F", "c_parallel": "F", "l_series": "H",
+            "l_parallel": "H", "r_series": "ohm", "r_parallel": "ohm", "dissipation": "1", "quality": "1"}
 _CONVENTION_WORDS = {"peak": "peak", "rms": "rms", "pp": "peak-to-peak"}
 
 
@@ -43,8 +52,7 @@ def unit_label(role: str, info: HeaderInfo) -> str:
     """The unit of a column as the provenance records it (``"kHz"``, ``"mV rms"``, ``"deg (assumed)"``)."""
     if info.unit_text:
         return info.unit_text
-    assumed = {"frequency": "Hz", "v_amplitude": "V", "i_amplitude": "A", "z_magnitude": "ohm",
-               "z_real": "ohm", "z_imag": "ohm", "ratio_magnitude": "V/V"}.get(role, "deg")
+    assumed = _ASSUMED.get(role, "deg")
     return f"{assumed}{' ' + info.convention if info.convention else ''} (assumed)"
 
 
@@ -65,6 +73,10 @@ def _convert(role: str, info: HeaderInfo, raw: np.ndarray, where: str) -> tuple[
         if info.base == "dB":
             return db_to_linear(raw), f"{label}: dB -> linear ratio (10^(dB/20))"
         return raw.copy(), f"{label}: linear ratio"
+    if info.base == "dBohm":
+        return db_to_linear(raw), f"{label}: dB re 1 ohm -> ohm (10^(dB/20))"
+    if info.base == "%":
+        return raw / 100, f"{label}: % -> fraction (x 0.01)"
     factor = prefix_factor(info.prefix)
     unit = info.base or allowed[0]
     values = raw * factor
@@ -138,10 +150,19 @@ def build_impedance(plan: ColumnPlan, values: Mapping[str, np.ndarray], shunt: f
         z = values["z_real"] + 1j * values["z_imag"]
         steps.append("Z = R + j X")
         form = "z_rect"
+    elif plan.form in LCR_FORMS:
+        z, lcr_steps = lcr_to_impedance(plan.form, values)
+        steps += lcr_steps
+        form = plan.form
     elif plan.form == "ratio":
         if reference is None:
-            ratio_header = plan.columns["ratio_magnitude"].header
-            raise InputError(f"{where}: a transfer-ratio file (column {ratio_header!r}) "
+            info = plan.columns["ratio_magnitude"]
+            if info.subject_from_unit:
+                raise InputError(f"{where}: column {info.header!r} is a magnitude in dB with no reference, "
+                                 f"so it cannot be read as impedance: if it is V_part / V_ref, pass "
+                                 f"--reference OHMS; if it is |Z| in dB re 1 ohm, say so in its unit, "
+                                 f"e.g. 'Mag (dBOhm)'")
+            raise InputError(f"{where}: a transfer-ratio file (column {info.header!r}) "
                              f"needs the reference resistor: pass --reference OHMS")
         z = reference * polar_to_complex(values["ratio_magnitude"], values["ratio_phase"])
         steps.append(f"Z = R_ref * H with R_ref = {reference:g} ohm (--reference), H = V_part / V_ref")
@@ -168,6 +189,6 @@ def build_impedance(plan: ColumnPlan, values: Mapping[str, np.ndarray], shunt: f
             steps.append("Z = V / I: |Z| = V_pk / I_pk, phase = the phase of V relative to I")
     if reference is not None and form != "ratio":
         warnings.append(f"--reference {reference:g} ignored: the file is not a transfer ratio ({form})")
-    if shunt is not None and form in ("z_polar", "z_rect", "ratio"):
+    if shunt is not None and (form in ("z_polar", "z_rect", "ratio") or form in LCR_FORMS):
         warnings.append(f"--shunt {shunt:g} ignored: the file holds no shunt voltage ({form})")
     return z, form, steps, warnings

@@ -4,11 +4,13 @@ A header splits into a *name* and a *unit*. The unit is taken from, in this orde
 reads as a unit (``"Frequency (kHz)"``, ``"f [MHz]"``, ``"V(DUT) (mV rms)"``), a ``/unit`` suffix
 (``"Frequency/Hz"``), or a last ``_``/space separated token of two or more letters (``"freq_hz"``,
 ``"phase deg"``). A unit is an optional SI prefix (``u``, ``µ`` and ``μ`` all micro; ``m`` milli,
-``M`` mega), a base unit (Hz, V, A, ohm/Ω, deg/°, rad, dB, V/V) and an optional amplitude
-convention (rms, pp/p-p/pk-pk, pk/peak).
+``M`` mega), a base unit (Hz, V, A, ohm/Ω, deg/°, rad, dB, dBohm/dBΩ, V/V, F, H, %) and an optional
+amplitude convention (rms, pp/p-p/pk-pk, pk/peak). ``F`` and ``H`` count only in capitals (``f`` is a
+frequency, ``h`` a transfer function).
 
-The name gives a *kind* (frequency, amplitude, phase, real, imaginary) and a *subject* (voltage across the
-part, current, impedance, transfer ratio), from word lists below; a channel tag (``Ch1``, ``Channel B``,
+The name gives a *kind* (frequency, amplitude, phase, real, imaginary, or one of the equivalent-circuit
+readings of an LCR meter: Cs, Ls, Cp, Lp, Rp, D, Q) and a *subject* (voltage across the part, current,
+impedance, transfer ratio), from word lists below; a channel tag (``Ch1``, ``Channel B``,
 ``Input 2``) groups the columns of one channel. The unit fills in what the name leaves open (Hz means
 frequency, A current, ohm impedance, dB a ratio, deg/rad a phase). Nothing here decides between columns: that
 is ``columns.py``.
@@ -23,13 +25,13 @@ from dataclasses import dataclass
 __all__ = ["HeaderInfo", "parse_header", "parse_unit"]
 
 _PREFIX = r"(?P<prefix>meg|[fpnuµμmkKMGT])?"
-_BASE = (r"(?P<base>(?i:hz|v/v|ohms?|Ω|degrees?|deg|°|radians?|rad|db|v|a))?")
+_BASE = (r"(?P<base>(?i:hz|v/v|db\(?(?:ohms?|Ω)\)?|ohms?|Ω|degrees?|deg|°|radians?|rad|db|v|a)|F|H|%)?")
 _CONVENTION = (r"(?P<conv>(?i:rms|peak-to-peak|peaktopeak|pk-pk|pkpk|p-p|pp|ptp|peak|pk))?")
 _UNIT = re.compile(_PREFIX + _BASE + _CONVENTION)
 
 _BASES = {"hz": "Hz", "v/v": "", "ohm": "ohm", "ohms": "ohm", "ω": "ohm", "deg": "deg", "degree": "deg",
           "degrees": "deg", "°": "deg", "rad": "rad", "radian": "rad", "radians": "rad", "db": "dB",
-          "v": "V", "a": "A"}
+          "v": "V", "a": "A", "dbohm": "dBohm", "f": "F", "h": "H", "%": "%"}
 _CONVENTIONS = {"rms": "rms", "peak-to-peak": "pp", "peaktopeak": "pp", "pk-pk": "pp", "pkpk": "pp",
                 "p-p": "pp", "pp": "pp", "ptp": "pp", "peak": "peak", "pk": "peak"}
 
@@ -42,6 +44,9 @@ VOLTAGE = {"v", "u", "volt", "volts", "voltage", "vdut", "vpart", "dut", "part",
 CURRENT = {"i", "current", "shunt", "vshunt", "ishunt", "sense", "vsense", "isense", "ish"}
 IMPEDANCE = {"z", "impedance", "zmag", "zreal", "zimag", "zphase"}
 RATIO = {"gain", "ratio", "h", "transfer", "tf"}
+#: Equivalent-circuit readings of an LCR meter (series/parallel C or L, parallel R, dissipation, quality).
+LCR = {"cs": "c_series", "ls": "l_series", "cp": "c_parallel", "lp": "l_parallel", "rp": "r_parallel",
+       "d": "dissipation", "df": "dissipation", "q": "quality"}
 FILLER = {"of", "the", "at", "in", "measured", "meas", "value", "val", "data", "mean", "avg", "average"}
 _COMPOUNDS = {  # single tokens that carry subject and convention, e.g. "Vpp"
     "vpp": ("voltage", "pp"), "vrms": ("voltage", "rms"), "vpk": ("voltage", "peak"),
@@ -49,7 +54,7 @@ _COMPOUNDS = {  # single tokens that carry subject and convention, e.g. "Vpp"
     "ipk": ("current", "peak"), "ipeak": ("current", "peak"),
 }
 _KNOWN = (FREQ | AMPLITUDE | PHASE | REAL | IMAG | VOLTAGE | CURRENT | IMPEDANCE | RATIO | FILLER
-          | set(_COMPOUNDS) | set(_CONVENTIONS) | {"zmag", "zreal", "zimag", "zphase"})
+          | set(_COMPOUNDS) | set(_CONVENTIONS) | set(LCR) | {"zmag", "zreal", "zimag", "zphase"})
 _CHANNEL = re.compile(r"\b(?:ch|chan|channel|input|in|trace|tr)\s*[-_#]?\s*(\d+|[a-d])\b")
 _SUBSTITUTIONS = [  # written forms of Z-quantities, turned into single tokens before splitting
     (re.compile(r"\|\s*z\s*\|"), " zmag "),
@@ -78,18 +83,22 @@ class HeaderInfo:
     prefix : str
         SI prefix of the unit (``""`` for none).
     base : str
-        Base unit: ``"Hz"``, ``"V"``, ``"A"``, ``"ohm"``, ``"deg"``, ``"rad"``, ``"dB"`` or ``""``
-        (none/linear).
+        Base unit: ``"Hz"``, ``"V"``, ``"A"``, ``"ohm"``, ``"deg"``, ``"rad"``, ``"dB"``, ``"dBohm"``
+        (dB re 1 ohm), ``"F"``, ``"H"``, ``"%"`` or ``""`` (none/linear).
     convention : str or None
         Amplitude convention stated: ``"peak"``, ``"rms"``, ``"pp"``, or None.
     kind : str or None
-        ``"frequency"``, ``"amplitude"``, ``"phase"``, ``"real"``, ``"imag"``, or None when not recognized.
+        ``"frequency"``, ``"amplitude"``, ``"phase"``, ``"real"``, ``"imag"``, an LCR reading
+        (``"c_series"``, ``"l_series"``, ``"c_parallel"``, ``"l_parallel"``, ``"r_parallel"``,
+        ``"dissipation"``, ``"quality"``), or None when not recognized.
     subject : str or None
         ``"voltage"``, ``"current"``, ``"impedance"``, ``"ratio"``, or None when the header does not say.
     group : str or None
         Channel tag (``"1"``, ``"b"``) shared by the columns of one channel, or None.
     negated : bool
         True for headers like ``"-Im(Z)"`` / ``"-Z''"`` that hold the negative of the quantity.
+    subject_from_unit : bool
+        True when only the unit gave the subject (``"Mag (dB)"`` is a ratio because of ``dB``).
     """
 
     header: str
@@ -102,6 +111,7 @@ class HeaderInfo:
     subject: str | None
     group: str | None
     negated: bool
+    subject_from_unit: bool = False
 
 
 def parse_unit(text: str) -> tuple[str, str, str | None] | None:
@@ -119,8 +129,10 @@ def parse_unit(text: str) -> tuple[str, str, str | None] | None:
     prefix, base, conv = match.group("prefix") or "", match.group("base"), match.group("conv")
     if base is None and (prefix or conv is None):
         return None
-    if base is not None and base.lower() in ("db", "deg", "degree", "degrees", "°", "rad", "radian",
-                                             "radians") and prefix:
+    if base is not None and base.lower().startswith("db") and len(base) > 2:
+        base = "dbohm"
+    if base is not None and base.lower() in ("db", "dbohm", "deg", "degree", "degrees", "°", "rad", "radian",
+                                             "radians", "%") and prefix:
         return None  # no "kdeg"/"mdB": not a unit we read
     if base is not None and base.lower() == "hz" and prefix == "m" and base == "hz":
         prefix = "M"  # all-lowercase "mhz" (as in freq_mhz) means megahertz; "mHz" stays milli
@@ -135,7 +147,8 @@ def _split_unit(text: str) -> tuple[str, str]:
     if "/" in text:
         left, right = text.rsplit("/", 1)
         last = re.split(r"[\s_]+", left.strip())[-1] if left.strip() else ""
-        if len(last) > 1 and parse_unit(right) is not None and parse_unit(right)[1]:
+        unit = parse_unit(right)
+        if last and unit is not None and unit[1] and (len(last) > 1 or parse_unit(text) is None):
             return left.strip(), right.strip()
     tokens = re.split(r"([\s_]+)", text.strip())
     if len(tokens) >= 3 and len(tokens[-1]) >= 2 and parse_unit(tokens[-1]) is not None:
@@ -158,9 +171,10 @@ def _tokens(name: str) -> tuple[list[str], str | None, bool]:
     return [t for t in re.split(r"[^a-z0-9θφµμé]+", text) if t], group, negated
 
 
-def _classify(tokens: list[str], base: str) -> tuple[str | None, str | None, str | None]:
-    """Tokens and base unit -> (kind, subject, convention named in the tokens)."""
+def _classify(tokens: list[str], base: str) -> tuple[str | None, str | None, str | None, bool]:
+    """Tokens and base unit -> (kind, subject, convention named in the tokens, subject from the unit)."""
     kinds, subjects, convention, unknown = set(), set(), None, False
+    from_unit = False
     for token in tokens:
         stem = token.rstrip("0123456789")
         if not (token in _KNOWN or stem in VOLTAGE | CURRENT):
@@ -175,6 +189,8 @@ def _classify(tokens: list[str], base: str) -> tuple[str | None, str | None, str
             kinds.add({"zmag": "amplitude", "zreal": "real", "zimag": "imag", "zphase": "phase"}[token])
         elif stem and stem in VOLTAGE | CURRENT:
             subjects.add("current" if stem in CURRENT else "voltage")
+        if token in LCR:
+            kinds.add(LCR[token])
         for table, kind in ((FREQ, "frequency"), (AMPLITUDE, "amplitude"), (PHASE, "phase"),
                             (REAL, "real"), (IMAG, "imag")):
             if token in table:
@@ -187,20 +203,22 @@ def _classify(tokens: list[str], base: str) -> tuple[str | None, str | None, str
     if kinds & {"real", "imag"}:
         subjects.add("impedance")
     unit_kind = {"Hz": "frequency", "deg": "phase", "rad": "phase"}.get(base)
-    unit_subject = {"A": "current", "ohm": "impedance", "dB": "ratio", "V": "voltage"}.get(base)
+    unit_subject = {"A": "current", "ohm": "impedance", "dBohm": "impedance", "dB": "ratio",
+                    "V": "voltage"}.get(base)
     if unit_kind and not unknown:  # "RBW (Hz)" or "Temp (deg)" are not ours
         kinds.add(unit_kind)
     if unit_subject and not unknown and not subjects and kinds <= {"amplitude", "real", "imag", "phase"}:
         subjects.add(unit_subject)
+        from_unit = True
     if len(kinds) > 1 or len(subjects) > 1:
-        return None, None, convention
+        return None, None, convention, False
     kind = next(iter(kinds), None)
     subject = next(iter(subjects), None)
     if kind is None and subject is not None:
         kind = "amplitude"
-    if kind == "frequency":
+    if kind == "frequency" or kind in LCR.values():
         subject = None
-    return kind, subject, convention
+    return kind, subject, convention, from_unit
 
 
 def parse_header(header: str, index: int) -> HeaderInfo:
@@ -211,7 +229,7 @@ def parse_header(header: str, index: int) -> HeaderInfo:
     name, unit_text = _split_unit(clean)
     prefix, base, convention = parse_unit(unit_text) if unit_text else ("", "", None)
     tokens, group, negated = _tokens(name)
-    kind, subject, named_convention = _classify(tokens, base)
+    kind, subject, named_convention, from_unit = _classify(tokens, base)
     return HeaderInfo(header=header, index=index, unit_text=unit_text, prefix=prefix, base=base,
                       convention=convention or named_convention, kind=kind, subject=subject, group=group,
-                      negated=negated)
+                      negated=negated, subject_from_unit=from_unit)

@@ -26,9 +26,13 @@ import numpy as np
 
 from ..exceptions import InputError
 from ..measurement import Measurement, Provenance
+from ..units import prefix_factor
 from .columns import plan_columns
+from .complex_form import complex_to_impedance
 from .delimited import decode_bytes, numeric_column, split_table
 from .forms import AMPLITUDE_ROLES, build_impedance, convert_columns, unit_label
+from .headers import parse_header
+from .simulator import ComplexTable, find_simulator_table
 
 __all__ = ["read_delimited"]
 
@@ -77,6 +81,33 @@ def _order_and_dedupe(f: np.ndarray, z: np.ndarray, lines: np.ndarray, steps: li
     return f[~repeat], z[~repeat]
 
 
+def _from_simulator(table: ComplexTable, column_map: dict[str, str], shunt: float | None,
+                    reference: float | None, name: str, where: str):
+    """Frequency (Hz), Z (ohm), lines, form, columns, units, steps, warnings of a simulator export."""
+    lines = np.asarray(table.lines)
+    steps = [f"read {name}: {table.layout}; frequency {table.frequency_header!r}, complex columns "
+             f"{list(table.headers)}; {lines.size} data rows (lines {lines.min()}-{lines.max()})",
+             *table.notes]
+    info = parse_header(table.frequency_header, 0)
+    if info.kind != "frequency" and "frequency" not in column_map:
+        raise InputError(f"{where}: the first column {table.frequency_header!r} does not read as frequency; "
+                         f"if it is, pass --map frequency='{table.frequency_header}'")
+    factor = prefix_factor(info.prefix) if info.base == "Hz" else 1.0
+    frequency = table.frequency * factor
+    steps.append(f"frequency from {table.frequency_header!r}: in {info.unit_text or 'Hz (assumed)'}"
+                 f"{f' (x {factor:g})' if factor != 1 else ''}")
+    z, columns, z_steps, warnings = complex_to_impedance(table, column_map, where)
+    steps += z_steps
+    for option, value in (("--shunt", shunt), ("--reference", reference)):
+        if value is not None:
+            warnings.append(f"{option} {value:g} ignored: the file holds complex impedance or V and I")
+    columns = {"frequency": table.frequency_header, **columns}
+    units = {"frequency": info.unit_text or "Hz (assumed)", **{r: {"z_complex": "ohm", "v_complex": "V",
+                                                                   "i_complex": "A"}[r] for r in columns
+                                                                if r != "frequency"}}
+    return frequency, z, lines, columns, units, steps, warnings
+
+
 def read_delimited(path: str | Path, shunt: float | None = None, reference: float | None = None,
                    column_map: dict[str, str] | None = None) -> Measurement:
     """Read a delimited text export (any of the five forms) into a Measurement.
@@ -111,7 +142,10 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
     except OSError as exc:
         raise InputError(f"{where}: cannot read the file ({exc.strerror or exc})") from None
     text, encoding = decode_bytes(raw, where)
-    table = split_table(text, encoding, where)
+    simulator = find_simulator_table(text, where)
+    if simulator is not None:
+        return _simulator_measurement(simulator, raw, path, column_map or {}, shunt, reference)
+    table = split_table(text, encoding, where, headerless=bool(column_map))
     if not table.rows:
         raise InputError(f"{where}: the table below the header has no rows")
     plan = plan_columns(table.headers, column_map or {}, where)
@@ -122,6 +156,7 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
     numbers = {role: numeric_column(table, info.index, where) for role, info in plan.columns.items()}
     values, convert_steps, warnings = convert_columns(plan, numbers, where)
     steps += convert_steps
+    warnings = [*plan.warnings, *warnings]
 
     keep = np.ones(lines.size, dtype=bool)
     missing = np.zeros(lines.size, dtype=bool)
@@ -136,6 +171,10 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
                                                    reference, where)
     steps += z_steps
     warnings += z_warnings
+    undefined = np.zeros(lines.size, dtype=bool)
+    undefined[np.flatnonzero(keep)[~np.isfinite(z)]] = True
+    _drop(keep, undefined, "where the impedance is undefined (a reading of 0 divides)", lines, warnings)
+    z = z[np.isfinite(z)]
     frequency, kept_lines = values["frequency"][keep], lines[keep]
     zero = np.zeros(lines.size, dtype=bool)
     zero[np.flatnonzero(keep)[z == 0]] = True
@@ -154,3 +193,26 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
         warnings=tuple(warnings),
     )
     return Measurement(frequency=frequency, impedance=z, provenance=provenance)
+
+
+def _simulator_measurement(table: ComplexTable, raw: bytes, path: Path, column_map: dict[str, str],
+                           shunt: float | None, reference: float | None) -> Measurement:
+    """A Measurement from a simulator export with complex cells (form ``simulator_complex``)."""
+    where = str(path)
+    frequency, z, lines, columns, units, steps, warnings = _from_simulator(table, column_map, shunt,
+                                                                           reference, path.name, where)
+    keep = np.ones(lines.size, dtype=bool)
+    _drop(keep, np.isnan(frequency) | np.isnan(z), "with missing cells", lines, warnings)
+    negative = np.flatnonzero(keep & (frequency < 0))
+    if negative.size:
+        raise InputError(f"{where}: line {lines[negative[0]]}, column {table.frequency_header!r}: negative "
+                         f"frequency; correct that row")
+    _drop(keep, frequency == 0, "at 0 Hz (a DC point has no phase)", lines, warnings)
+    _drop(keep, ~np.isfinite(z), "where the impedance is undefined (zero current)", lines, warnings)
+    _drop(keep, z == 0, "with |Z| = 0 (no phase, no logarithm)", lines, warnings)
+    if not keep.any():
+        raise InputError(f"{where}: no usable row left ({'; '.join(warnings)})")
+    f, z = _order_and_dedupe(frequency[keep], z[keep], lines[keep], steps, warnings, where)
+    provenance = Provenance(source=where, sha256=hashlib.sha256(raw).hexdigest(), form="simulator_complex",
+                            columns=columns, units=units, steps=tuple(steps), warnings=tuple(warnings))
+    return Measurement(frequency=f, impedance=z, provenance=provenance)
