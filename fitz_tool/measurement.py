@@ -29,7 +29,9 @@ class Provenance:
         SHA-256 of the input file's bytes (``""`` when not read from a file).
     form : str
         Input form, e.g. ``"v_i_phasors"``, ``"v_shunt"``, ``"z_polar"``, ``"z_rect"``, ``"ratio"``,
-        ``"touchstone_s11"``, ``"touchstone_s21_shunt"``, ``"touchstone_s21_series"``, ``"synthetic"``.
+        ``"simulator_complex"`` (complex cells of a circuit-simulator export), ``"lcr_*"`` (LCR-meter
+        equivalent pairs such as Cs-Rs or Ls-Q), ``"touchstone_s11"``, ``"touchstone_s21_shunt"``,
+        ``"touchstone_s21_series"``, ``"synthetic"``.
     columns : dict
         Role -> header (or Touchstone field) used for it.
     units : dict
