@@ -296,6 +296,8 @@ class _Subproblem:
 CORRELATION_LIMIT = 0.99
 #: Relative standard error above which a parameter counts as not determined by the data.
 UNDETERMINED_LIMIT = 1.0
+#: Relative standard error above which the first-order error is flagged as only approximate.
+APPROXIMATE_LIMIT = 0.3
 #: Distance (internal units: decades, or n) from a bound that counts as sitting on it.
 AT_BOUND_TOLERANCE = 1e-3
 
@@ -389,6 +391,10 @@ def _assess(problem: FitProblem, m: Measurement, out: lmfit.minimizer.MinimizerR
                              f"{stderr / abs(value):.0%} of its value): its effect is too small within "
                              f"{f_text}, e.g. a resonance or corner outside the sweep; fix it or use a "
                              "simpler model")
+            elif stderr > APPROXIMATE_LIMIT * abs(value):
+                flags.append(f"{name} is poorly determined (standard error {stderr / abs(value):.0%} of its "
+                             "value): the first-order error is only approximate and the true interval is "
+                             "asymmetric")
             continue
         why = note if name not in at_bound or dof <= 0 else \
             f"at the {at_bound[name]} bound: no standard error there"
