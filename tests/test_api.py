@@ -30,7 +30,8 @@ def test_notebook_flow_reads_fits_and_derives(tmp_path):
     f = np.logspace(2, 6, 41)
     z = 10 + 2j * np.pi * f * 1e-3
     path = tmp_path / "part.csv"
-    rows = "\n".join(f"{a:.10g},{abs(b):.10g},{np.degrees(np.angle(b)):.10g}" for a, b in zip(f, z, strict=True))
+    rows = "\n".join(f"{a:.10g},{abs(b):.10g},{np.degrees(np.angle(b)):.10g}"
+                     for a, b in zip(f, z, strict=True))
     path.write_text("Frequency (Hz),|Z| (ohm),Phase (deg)\n" + rows + "\n")
     m = fitz_tool.read_measurement(path)
     result = fitz_tool.fit(m, "R1 + L1")
