@@ -143,8 +143,8 @@ def quality_rows(result: FitResult) -> list[tuple[str, str]]:
         ("message", result.message),
         ("chi-square", f"{result.chi_square:.6g}"),
         ("reduced chi-square", f"{result.reduced_chi_square:.4g}"),
-        ("AIC", f"{result.aic:.6g}"),
-        ("BIC", f"{result.bic:.6g}"),
+        ("AIC", f"{result.aic:.1f}"),
+        ("BIC", f"{result.bic:.1f}"),
         ("points (complex)", str(result.n_points)),
         ("free parameters", str(result.n_free)),
         ("degrees of freedom", str(result.degrees_of_freedom)),
@@ -172,10 +172,16 @@ def design_lines(design: DesignValues) -> list[str]:
 def format_fit_report(result: FitResult, selection: ModelSelection | None, design: DesignValues) -> str:
     """Terminal report: model, ranking (auto), parameters, fit quality, flags, design values, warnings."""
     prov = result.measurement.provenance
-    lines = [f"Part: {prov.source or '(data built in code)'}", f"Model: {result.circuit.expression}"]
+    m = result.measurement
+    lines = [f"Part: {prov.source or '(data built in code)'}",
+             f"Input: {prov.form}, {len(m)} points, {format_value(m.frequency[0], 'Hz')} to "
+             f"{format_value(m.frequency[-1], 'Hz')}",
+             f"Model: {result.circuit.expression}"]
+    if prov.steps:
+        lines += ["", "Conversions and corrections applied:"] + [f"  - {step}" for step in prov.steps]
     if selection is not None:
         lines += ["", f"Model ranking (lowest BIC first; chosen: {selection.chosen.circuit.expression}):"]
-        rows = [(str(k + 1), r.expression, f"{r.bic:.6g}" if math.isfinite(r.bic) else "-",
+        rows = [(str(k + 1), r.expression, f"{r.bic:.1f}" if math.isfinite(r.bic) else "-",
                  "yes" if r.adequate else "no", r.note) for k, r in enumerate(selection.ranking)]
         lines += _table(rows, ("#", "model", "BIC", "adequate", "note"))
         lines.append(f"  why: {selection.reason}")
