@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq
 
+from .exceptions import InputError
 from .results import FitResult
 
 __all__ = ["DerivedValue", "Resonance", "OperatingPoint", "DesignValues", "design_values",
@@ -235,6 +236,9 @@ def design_values(result: FitResult, at: Sequence[float] = ()) -> DesignValues:
         operating frequency ``L_eff`` [H] or ``C_eff`` [F], ``ESR`` [ohm], ``abs_Z`` [ohm], ``phase`` [deg],
         ``Q`` and ``D`` [1], each with a first-order standard uncertainty.
     """
+    for f in at:
+        if not (math.isfinite(f) and f > 0):
+            raise InputError(f"operating frequency {f!r} Hz: give a frequency above 0, e.g. --at 100k")
     names, covariance, note = parameter_covariance(result)
     if covariance is not None and len(names) != covariance.shape[0]:
         covariance, note = None, "no uncertainty: covariance does not match the parameter list"

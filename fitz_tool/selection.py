@@ -4,7 +4,7 @@ Rule (documented in ``ModelSelection.reason`` of every choice):
 
 1. Every candidate is fitted from the data (no starting values needed) and ranked by BIC, lowest first.
 2. A candidate is *adequate* when its fit converged, its residuals show no systematic structure against
-   frequency (see :func:`fitz_tool.fitting.residual_structure`), and every free parameter is determined by
+   frequency (see :func:`fitz_tool.assessment.residual_structure`), and every free parameter is determined by
    the data (none at a bound, none with a standard error larger than its value, none without one).
 3. Among the adequate candidates whose BIC is within ``BIC_MARGIN`` of the best BIC of all candidates, the
    one with the fewest free parameters is chosen (ties: lower BIC). A BIC difference of 10 is "very strong"

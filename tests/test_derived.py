@@ -16,6 +16,7 @@ from uncertainties import correlated_values
 
 from fitz_tool.circuit import Circuit
 from fitz_tool.derived import design_values, frequency_derivative
+from fitz_tool.exceptions import InputError
 from fitz_tool.measurement import Measurement, Provenance
 from fitz_tool.results import FitResult, ParameterEstimate
 
@@ -239,3 +240,9 @@ def test_frequency_derivative_matches_finite_differences_with_a_cpe():
     h = f * 1e-6
     numeric = (result.model_impedance(f + h) - result.model_impedance(f - h)) / (2 * h)  # central difference
     np.testing.assert_allclose(frequency_derivative(result, f), numeric, rtol=1e-7)
+
+
+@pytest.mark.parametrize("frequency", [0.0, -1e3, float("nan")])
+def test_an_operating_frequency_must_be_positive(frequency):
+    with pytest.raises(InputError, match="above 0"):
+        design_values(synthetic_result("R1 + L1", {"R1": 1.0, "L1": 1e-6}), [frequency])
