@@ -101,7 +101,7 @@ def _correlation(result: FitResult) -> str:
 def _ranking(selection: ModelSelection | None) -> str:
     if selection is None:
         return "<p>Model given by the user (no automatic choice).</p>"
-    rows = [(k + 1, r.expression, f"{r.bic:.6g}" if math.isfinite(r.bic) else "-",
+    rows = [(k + 1, r.expression, f"{r.bic:.1f}" if math.isfinite(r.bic) else "-",
              "yes" if r.adequate else "no", r.note) for k, r in enumerate(selection.ranking)]
     return (f"<p>Candidates ranked by BIC (lowest first). Chosen: <code>"
             f"{_e(selection.chosen.circuit.expression)}</code>. {_e(selection.reason)}</p>"
@@ -161,7 +161,8 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
     prov = result.measurement.provenance
     part = prov.source or "part"
     options = [] if record is None else [
-        (k if k in ("command", "file") else f"--{k.replace('_', '-')}", v) for k, v in record.options.items()]
+        (k if k in ("command", "file") else f"--{k.replace('_', '-')}", v)
+        for k, v in record.options.items() if v != ""]
     sections = [
         ("Part and input", _part(result, record)),
         ("Options of this run", _table(("option", "value"), options) if options else "<p>Not recorded.</p>"),
