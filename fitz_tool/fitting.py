@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import lmfit
 import numpy as np
 
-from .assessment import assess, residual_structure
+from .assessment import INTERVAL_MODES, assess, residual_structure
 from .circuit import Circuit
 from .exceptions import FitError, InputError
 from .measurement import Measurement
@@ -183,7 +183,7 @@ def _problem(circuit: Circuit, m: Measurement, free: tuple[str, ...],
 
 def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, float] | None = None,
         guesses: Mapping[str, float] | None = None,
-        bounds: Mapping[str, tuple[float, float]] | None = None) -> FitResult:
+        bounds: Mapping[str, tuple[float, float]] | None = None, intervals: str = "flagged") -> FitResult:
     """Fit a circuit to a measurement with no starting values needed.
 
     Parameters
@@ -198,6 +198,10 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
         Parameter name -> starting value (SI units), replacing the data-derived seed for that parameter.
     bounds : mapping, optional
         Parameter name -> (low, high) in SI units.
+    intervals : {"flagged", "all", "none"}
+        Which free parameters get a 68 % profile-likelihood interval: those whose first-order standard
+        error is not trusted (at a bound, none, above 30 % of the value, correlation near 1; see
+        :mod:`fitz_tool.assessment`), every one, or none (first-order errors only).
 
     Returns
     -------
@@ -213,6 +217,8 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
     FitError
         More free parameters than residual entries (2 per point), or nothing left to fit.
     """
+    if intervals not in INTERVAL_MODES:
+        raise InputError(f"intervals={intervals!r}: use one of {', '.join(INTERVAL_MODES)}")
     circuit = model if isinstance(model, Circuit) else Circuit.parse(resolve_model(model))
     fixed, guesses, bounds = dict(fixed or {}), dict(guesses or {}), dict(bounds or {})
     for given, what in ((fixed, "fixed value"), (guesses, "guess"), (bounds, "bound")):
@@ -251,7 +257,9 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
             out, stage = trial, "after a global search (the seeded fit left structured residuals)"
         else:
             stage = "from the data-derived seed (a global search found nothing better)"
-    return assess(problem, measurement, out, (b_lo, b_hi), scale_covar, stage)
+    return assess(problem, measurement, out, (b_lo, b_hi), scale_covar, stage, intervals=intervals,
+                  user_bounded=frozenset(bounds),
+                  refit=lambda x: _local_fit(problem, x, b_lo, b_hi, scale_covar))
 
 
 def _vector(out: lmfit.minimizer.MinimizerResult) -> np.ndarray:

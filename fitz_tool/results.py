@@ -31,7 +31,14 @@ class ParameterEstimate:
     at_bound : str or None
         ``"lower"`` or ``"upper"`` when the estimate sits at a bound.
     stderr_note : str
-        Why ``stderr`` is None (e.g. "fixed by user", "covariance could not be computed").
+        Why ``stderr`` is None (e.g. "fixed by user", "covariance could not be computed", "not determined:
+        consistent with 0 up to 2 mohm (68 % profile likelihood)").
+    interval : tuple of float, or None
+        68 % profile-likelihood interval (low, high) in SI units where the first-order standard error was not
+        trusted (see :mod:`fitz_tool.assessment`); ``low`` is 0.0 or ``high`` is inf when the data do not
+        limit the parameter on that side. None when not computed.
+    interval_note : str
+        How ``interval`` was obtained, or why it could not be.
     """
 
     name: str
@@ -41,6 +48,8 @@ class ParameterEstimate:
     vary: bool = True
     at_bound: str | None = None
     stderr_note: str = ""
+    interval: tuple[float, float] | None = None
+    interval_note: str = ""
 
 
 @dataclass(frozen=True)

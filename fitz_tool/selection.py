@@ -5,7 +5,8 @@ Rule (documented in ``ModelSelection.reason`` of every choice):
 1. Every candidate is fitted from the data (no starting values needed) and ranked by BIC, lowest first.
 2. A candidate is *adequate* when its fit converged, its residuals show no systematic structure against
    frequency (see :func:`fitz_tool.assessment.residual_structure`), and every free parameter is determined by
-   the data (none at a bound, none with a standard error larger than its value, none without one).
+   the data (none at a bound, none with a standard error larger than its value, none without one unless it
+   has a closed profile-likelihood interval above 0 whose half-width is below its value).
 3. Among the adequate candidates whose BIC is within ``BIC_MARGIN`` of the best BIC of all candidates, the
    one with the fewest free parameters is chosen (ties: lower BIC). A BIC difference of 10 is "very strong"
    evidence for the better model (Kass and Raftery, J. Am. Stat. Assoc. 90 (1995) 773); below that the
@@ -48,6 +49,10 @@ def is_adequate(result: FitResult) -> tuple[bool, str]:
             continue
         if p.at_bound:
             problems.append(f"{p.name} at its {p.at_bound} bound")
+        elif p.stderr is None and p.interval is not None:
+            low, high = p.interval
+            if low <= 0 or math.isinf(high) or (high - low) / 2 > abs(p.value):
+                problems.append(f"{p.name} not determined")
         elif p.stderr is None:
             problems.append(f"{p.name} has no standard error")
         elif p.stderr > abs(p.value):
