@@ -158,9 +158,12 @@ def _local_fit(problem: FitProblem, x0: np.ndarray, b_lo: np.ndarray, b_hi: np.n
         def vector(p: lmfit.Parameters) -> np.ndarray:
             return np.array([p[key].value for key in keys])
 
-        return lmfit.minimize(lambda p: problem.residual(vector(p)), params, method=method,
-                              Dfun=lambda p: problem.jacobian(vector(p)), scale_covar=scale_covar,
-                              max_nfev=100 * (k + 1))
+        # lmfit takes square roots of a covariance that may not be positive definite; such NaN errors are
+        # judged (and reported in words) by the assessment, so numpy's warnings would only be noise here.
+        with np.errstate(all="ignore"):
+            return lmfit.minimize(lambda p: problem.residual(vector(p)), params, method=method,
+                                  Dfun=lambda p: problem.jacobian(vector(p)), scale_covar=scale_covar,
+                                  max_nfev=100 * (k + 1))
 
     out = run(x0, "leastsq")
     x = _vector(out)

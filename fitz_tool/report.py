@@ -132,6 +132,10 @@ def parameter_rows(result: FitResult) -> list[tuple[str, str, str]]:
             note = (note + "; " if note else "") + f"at {p.at_bound} bound"
         if not p.vary:
             note = note or "fixed by user"
+        if p.interval is not None and p.stderr is not None:
+            low, high = p.interval
+            note = (note + "; " if note else "") + (f"68 % profile interval {format_value(low, p.unit)} to "
+                                                   f"{format_value(high, p.unit)}")
         rows.append((p.name, format_value(p.value, p.unit, p.stderr), note))
     return rows
 
@@ -240,7 +244,9 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
     return {
         "model": result.circuit.expression,
         "parameters": {p.name: {"value": _num(p.value), "stderr": _num(p.stderr), "unit": p.unit,
-                                "vary": bool(p.vary), "at_bound": p.at_bound, "stderr_note": p.stderr_note}
+                                "vary": bool(p.vary), "at_bound": p.at_bound, "stderr_note": p.stderr_note,
+                                "interval": None if p.interval is None else [_num(v) for v in p.interval],
+                                "interval_note": p.interval_note}
                        for p in result.parameters.values()},
         "fit": {"success": bool(result.success), "message": result.message,
                 "chi_square": _num(result.chi_square), "reduced_chi_square": _num(result.reduced_chi_square),

@@ -112,3 +112,18 @@ def test_curve_table_holds_measured_model_and_residuals():
     assert np.std(table["residual_abs_rel"]) == pytest.approx(1e-3, rel=0.25)  # the noise we put in
     again = pd.read_csv(io.StringIO(table.to_csv(index=False)))
     assert list(again.columns) == list(table.columns)
+
+
+def test_profile_interval_travels_to_the_json_and_the_table():
+    import dataclasses
+
+    result = synthetic_result()
+    name = next(iter(result.parameters))
+    p = dataclasses.replace(result.parameters[name], interval=(0.0, float("inf")), stderr=None,
+                            stderr_note="not determined: consistent with 0", interval_note="profile")
+    result = dataclasses.replace(result, parameters={**result.parameters, name: p})
+    doc = fit_to_json(result, None, design_values(result, []), None)
+    assert doc["parameters"][name]["interval"] == [0.0, None]  # infinity is not JSON: null
+    assert doc["parameters"][name]["stderr"] is None
+    text = format_fit_report(result, None, design_values(result, []))
+    assert "not determined: consistent with 0" in text
