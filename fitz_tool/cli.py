@@ -169,7 +169,7 @@ def _cmd_fit(args) -> int:
     at = [parse_quantity(a, "Hz", "--at") for a in args.at]
     constraints = dict(fixed=_parse_named_values(args.fix, "--fix"),
                        guesses=_parse_named_values(args.guess, "--guess"),
-                       bounds=_parse_bounds(args.bound))
+                       bounds=_parse_bounds(args.bound), intervals=args.intervals)
     selection = None
     if args.model.strip().lower() == "auto":
         selection = fit_auto(measurement, **constraints)
@@ -241,6 +241,9 @@ def build_parser() -> argparse.ArgumentParser:
     model.add_argument("--fix", action="append", default=[], metavar="NAME=VALUE", help="hold a parameter")
     model.add_argument("--guess", action="append", default=[], metavar="NAME=VALUE", help="starting value")
     model.add_argument("--bound", action="append", default=[], metavar="NAME=LOW:HIGH", help="limits")
+    model.add_argument("--intervals", choices=["flagged", "all", "none"], default="flagged",
+                       help="68 %% profile-likelihood intervals: for parameters whose first-order error is not "
+                            "trustworthy (default), for every parameter, or none")
     out = fitp.add_argument_group("outputs")
     out.add_argument("--at", action="append", default=[], metavar="FREQ",
                      help="operating frequency for design values (repeatable), e.g. --at 100k")

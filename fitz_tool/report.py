@@ -19,7 +19,7 @@ import pandas as pd
 
 from .derived import DerivedValue, DesignValues
 from .results import FitResult, ModelSelection
-from .units import format_quantity, format_relative
+from .units import format_quantity, format_relative, format_to_resolution
 
 __all__ = ["InputFile", "RunRecord", "run_record", "format_fit_report", "fit_to_json", "curve_table",
            "format_value", "format_derived_value"]
@@ -134,8 +134,8 @@ def parameter_rows(result: FitResult) -> list[tuple[str, str, str]]:
             note = note or "fixed by user"
         if p.interval is not None and p.stderr is not None:
             low, high = p.interval
-            note = (note + "; " if note else "") + (f"68 % profile interval {format_value(low, p.unit)} to "
-                                                   f"{format_value(high, p.unit)}")
+            ends = [format_to_resolution(v, p.unit, (high - low) / 2) for v in (low, high)]
+            note = (note + "; " if note else "") + f"68 % profile interval {ends[0]} to {ends[1]}"
         rows.append((p.name, format_value(p.value, p.unit, p.stderr), note))
     return rows
 

@@ -62,7 +62,8 @@ def is_adequate(result: FitResult) -> tuple[bool, str]:
 
 def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, *,
              fixed: Mapping[str, float] | None = None, guesses: Mapping[str, float] | None = None,
-             bounds: Mapping[str, tuple[float, float]] | None = None) -> ModelSelection:
+             bounds: Mapping[str, tuple[float, float]] | None = None,
+             intervals: str = "flagged") -> ModelSelection:
     """Fit every candidate and choose the simplest adequate model (rule in the module docstring).
 
     Parameters
@@ -86,7 +87,7 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
         circuit = Circuit.parse(expression)
         try:
             result = fit(measurement, circuit, fixed=_only(fixed, circuit), guesses=_only(guesses, circuit),
-                         bounds=_only(bounds, circuit))
+                         bounds=_only(bounds, circuit), intervals=intervals)
         except FitError as exc:
             ranked.append(RankedModel(expression, None, math.inf, False, f"not fitted: {exc}"))
             continue

@@ -12,7 +12,10 @@ from matplotlib.ticker import EngFormatter
 
 from .exceptions import InputError
 
-__all__ = ["SI_PREFIXES", "prefix_factor", "parse_quantity", "format_quantity", "format_relative"]
+__all__ = [
+    "SI_PREFIXES", "prefix_factor", "parse_quantity", "format_quantity", "format_relative",
+    "format_to_resolution",
+]
 
 #: Multipliers of the SI prefixes (both "u" and the micro sign are accepted for 1e-6).
 SI_PREFIXES: dict[str, float] = {
@@ -77,6 +80,16 @@ def format_quantity(value: float, unit: str = "", stderr: float | None = None) -
     mantissa_digits = math.floor(math.log10(abs(value))) - exp3 + 1  # 1..3 digits before the point
     if stderr is None or not math.isfinite(stderr) or stderr <= 0:
         return _eng(value, unit, max(0, 4 - mantissa_digits))
-    lead = math.floor(math.log10(stderr))  # decade of the uncertainty's first digit
-    places = min(max(0, exp3 - lead + 1), 9)
-    return f"{_eng(value, unit, places)} +/- {format_relative(stderr, value)}"
+    return f"{format_to_resolution(value, unit, stderr)} +/- {format_relative(stderr, value)}"
+
+
+def format_to_resolution(value: float, unit: str, resolution: float) -> str:
+    """Engineering notation showing ``value`` down to two significant digits of ``resolution``.
+
+    Used for a value whose uncertainty is stated elsewhere, e.g. the ends of an interval.
+    """
+    if value == 0 or not math.isfinite(value) or not (math.isfinite(resolution) and resolution > 0):
+        return format_quantity(value, unit)
+    exp3 = 3 * math.floor(math.log10(abs(value)) / 3)
+    lead = math.floor(math.log10(resolution))  # decade of the resolution's first digit
+    return _eng(value, unit, min(max(0, exp3 - lead + 1), 9))

@@ -91,3 +91,11 @@ def test_an_output_over_the_input_is_refused_and_nothing_is_written(tmp_path, ca
     assert csv.read_bytes() == original
     assert not (out / "fit.json").exists() and not (out / "report.html").exists()
     assert not (out / "plots").exists() or not any((out / "plots").iterdir())
+
+
+def test_intervals_option_reaches_the_fit(tmp_path, capsys):
+    csv = _bench_csv(tmp_path)
+    assert main(["fit", str(csv), "--model", MODEL, "--intervals", "all"]) == 0
+    assert "68 % profile interval" in capsys.readouterr().out
+    assert main(["fit", str(csv), "--model", MODEL, "--intervals", "none"]) == 0
+    assert "profile interval" not in capsys.readouterr().out

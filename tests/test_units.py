@@ -42,3 +42,11 @@ def test_value_shows_only_the_digits_its_uncertainty_supports():
 def test_value_without_uncertainty_has_four_significant_digits():
     assert format_quantity(1.234567e-12, "F") == "1.235 pF"
     assert format_quantity(47e-6, "F") == "47.00 uF"
+
+
+def test_interval_ends_show_the_digits_of_the_interval_width():
+    # two significant digits of the half-width 0.011 uH fix the last decimal (common practice, no source)
+    from fitz_tool.units import format_to_resolution
+
+    assert format_to_resolution(21.982e-6, "H", 1.1e-8) == "21.982 uH"
+    assert format_to_resolution(0.0, "ohm", 1e-3) == "0 ohm"
