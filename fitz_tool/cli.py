@@ -242,8 +242,8 @@ def build_parser() -> argparse.ArgumentParser:
     model.add_argument("--guess", action="append", default=[], metavar="NAME=VALUE", help="starting value")
     model.add_argument("--bound", action="append", default=[], metavar="NAME=LOW:HIGH", help="limits")
     model.add_argument("--intervals", choices=["flagged", "all", "none"], default="flagged",
-                       help="68 %% profile-likelihood intervals: for parameters whose first-order error is not "
-                            "trustworthy (default), for every parameter, or none")
+                       help="68 %% profile-likelihood intervals: for parameters whose first-order error "
+                            "is not trustworthy (default), for every parameter, or none")
     out = fitp.add_argument_group("outputs")
     out.add_argument("--at", action="append", default=[], metavar="FREQ",
                      help="operating frequency for design values (repeatable), e.g. --at 100k")
