@@ -42,15 +42,22 @@ LCR_FORMS: dict[str, tuple[str, ...]] = {
 }
 
 
-def _loss(values: Mapping[str, np.ndarray]) -> tuple[str, np.ndarray]:
-    """The loss reading as ("D", D) or ("Q", Q)."""
-    if "dissipation" in values:
-        return "D", values["dissipation"]
-    return "Q", values["quality"]
+#: kind -> (role of the reactive reading, its part in words)
+_REACTIVE: dict[str, tuple[str, str]] = {
+    "cs": ("c_series", "X = 1/(j w Cs)"),
+    "ls": ("l_series", "X = j w Ls"),
+    "cp": ("c_parallel", "B = j w Cp"),
+    "lp": ("l_parallel", "B = 1/(j w Lp)"),
+}
 
 
 def lcr_to_impedance(form: str, values: Mapping[str, np.ndarray]) -> tuple[np.ndarray, list[str]]:
     """Impedance in ohm of an LCR-meter reading pair (see the module table).
+
+    A series pair is ``Z = Rs + X`` with the reactive impedance X; a parallel pair ``Y = 1/Rp + B`` with the
+    reactive admittance B. A loss given as D (or Q = 1/D) sets the resistive part to ``D |X|`` (series) or
+    ``D |B|`` (parallel), signed with the reading, which is the table's relations written once for all four
+    kinds.
 
     Parameters
     ----------
@@ -68,49 +75,25 @@ def lcr_to_impedance(form: str, values: Mapping[str, np.ndarray]) -> tuple[np.nd
     steps : list of str
         The relations used, in words.
     """
+    kind = form[len("lcr_"):len("lcr_") + 2]
+    role, part_text = _REACTIVE[kind]
+    series = kind.endswith("s")
     w = 2 * np.pi * values["frequency"]
-    steps: list[str] = []
+    x = values[role]
     with np.errstate(divide="ignore", invalid="ignore"):
-        if form.startswith(("lcr_cs", "lcr_ls")):
-            reactive = "c_series" if form.startswith("lcr_cs") else "l_series"
-            x = values[reactive]
-            if "r_series" in values:
-                rs = values["r_series"]
-            else:
-                name, loss = _loss(values)
-                d = loss if name == "D" else 1 / loss
-                q = 1 / d
-                if reactive == "c_series":
-                    rs = d / (w * x)
-                    steps.append(f"Rs = D / (w Cs){' with D = 1/Q' if name == 'Q' else ''}")
-                else:
-                    rs = w * x / q
-                    steps.append(f"Rs = w Ls / Q{' with Q = 1/D' if name == 'D' else ''}")
-            if reactive == "c_series":
-                z = rs + 1 / (1j * w * x)
-                steps.append("Z = Rs + 1/(j w Cs) (series equivalent)")
-            else:
-                z = rs + 1j * w * x
-                steps.append("Z = Rs + j w Ls (series equivalent)")
-            return z, steps
-        reactive = "c_parallel" if form.startswith("lcr_cp") else "l_parallel"
-        x = values[reactive]
-        if "r_parallel" in values:
-            rp = values["r_parallel"]
+        part = 1j * w * x if kind in ("ls", "cp") else 1 / (1j * w * x)
+        if "r_series" in values or "r_parallel" in values:
+            resistive = values["r_series"] if series else 1 / values["r_parallel"]
+            steps = []
         else:
-            name, loss = _loss(values)
-            d = loss if name == "D" else 1 / loss
-            q = 1 / d
-            if reactive == "c_parallel":
-                rp = 1 / (w * x * d)
-                steps.append(f"Rp = 1 / (w Cp D){' with D = 1/Q' if name == 'Q' else ''}")
-            else:
-                rp = q * w * x
-                steps.append(f"Rp = Q w Lp{' with Q = 1/D' if name == 'D' else ''}")
-        if reactive == "c_parallel":
-            y = 1 / rp + 1j * w * x
-            steps.append("Z = 1 / (1/Rp + j w Cp) (parallel equivalent)")
-        else:
-            y = 1 / rp + 1 / (1j * w * x)
-            steps.append("Z = 1 / (1/Rp + 1/(j w Lp)) (parallel equivalent)")
-        return 1 / y, steps
+            d = values["dissipation"] if "dissipation" in values else 1 / values["quality"]
+            # meters sign D and Q with the reading (D = Rs w Cs, Q = w Ls / Rs), so a negative Cs or Ls
+            # comes with a negative D or Q and the resistance stays as measured
+            resistive = d * np.abs(part) * np.sign(x)
+            given = "D" if "dissipation" in values else "Q (D = 1/Q)"
+            steps = [f"{'Rs = D |X|' if series else '1/Rp = D |B|'} from {given}"]
+        if series:
+            steps.append(f"Z = Rs + X with {part_text} (series equivalent)")
+            return resistive + part, steps
+        steps.append(f"Z = 1 / (1/Rp + B) with {part_text} (parallel equivalent)")
+        return 1 / (resistive + part), steps
