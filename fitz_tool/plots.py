@@ -101,7 +101,7 @@ def plot_measurement(measurement: Measurement) -> Figure:
     return figure
 
 
-def _model_grid(result: FitResult, points: int = 600) -> tuple[np.ndarray, np.ndarray]:
+def _model_grid(result: FitResult, points: int = 5000) -> tuple[np.ndarray, np.ndarray]:
     f = result.measurement.frequency
     grid = np.geomspace(f[0], f[-1], points) if f[-1] > f[0] else f.copy()
     return grid, result.model_impedance(grid)
@@ -217,6 +217,7 @@ def _plane_figure(result: FitResult) -> Figure:
     ax.set_xlabel("resistance Re Z")
     ax.set_ylabel("reactance Im Z (+ inductive)")
     _style(ax, x_unit="Ω", y_unit="Ω", log_x=False)
+    ax.set_aspect("equal", adjustable="datalim")  # one ohm is one ohm on both axes: arcs keep their shape
     ax.legend(loc="best")
     ax.set_title(f"{_part_name(m)}: impedance plane")
     return figure
