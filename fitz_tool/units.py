@@ -24,7 +24,7 @@ SI_PREFIXES: dict[str, float] = {
 }
 
 _NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
-_QUANTITY = re.compile(rf"^\s*({_NUMBER})\s*(meg|[fpnu\u00b5\u03bcmkKMGT]?)\s*([A-Za-z\u03a9]*)\s*$")
+_QUANTITY = re.compile(rf"^\s*({_NUMBER})\s*([mM][eE][gG]|[fpnu\u00b5\u03bcmkKMGT]?)\s*([A-Za-z\u03a9]*)\s*$")
 
 
 def prefix_factor(prefix: str) -> float:
@@ -76,20 +76,31 @@ def format_quantity(value: float, unit: str = "", stderr: float | None = None) -
         return f"{value} {unit}".strip()
     if value == 0:
         return _eng(0.0, unit, 0) + ("" if stderr is None else f" +/- {_eng(stderr, unit, 2)}")
-    exp3 = 3 * math.floor(math.log10(abs(value)) / 3)
-    mantissa_digits = math.floor(math.log10(abs(value))) - exp3 + 1  # 1..3 digits before the point
     if stderr is None or not math.isfinite(stderr) or stderr <= 0:
-        return _eng(value, unit, max(0, 4 - mantissa_digits))
+        rounded = float(f"{value:.4g}")  # round first: 999.96 becomes 1000, shown as 1.000 k
+        return _eng(rounded, unit, max(0, 4 - (_decade(rounded) - _prefix_exponent(rounded) + 1)))
     return f"{format_to_resolution(value, unit, stderr)} +/- {format_relative(stderr, value)}"
+
+
+def _decade(value: float) -> int:
+    return math.floor(math.log10(abs(value)))
+
+
+def _prefix_exponent(value: float) -> int:
+    """Exponent of the SI prefix engineering notation uses for ``value`` (a multiple of 3)."""
+    return 3 * math.floor(_decade(value) / 3)
 
 
 def format_to_resolution(value: float, unit: str, resolution: float) -> str:
     """Engineering notation showing ``value`` down to two significant digits of ``resolution``.
 
-    Used for a value whose uncertainty is stated elsewhere, e.g. the ends of an interval.
+    Used for a value whose uncertainty is stated elsewhere, e.g. the ends of an interval. The value is
+    rounded to that resolution before the prefix is chosen, so a carry into the next prefix keeps its digits.
     """
     if value == 0 or not math.isfinite(value) or not (math.isfinite(resolution) and resolution > 0):
         return format_quantity(value, unit)
-    exp3 = 3 * math.floor(math.log10(abs(value)) / 3)
-    lead = math.floor(math.log10(resolution))  # decade of the resolution's first digit
-    return _eng(value, unit, min(max(0, exp3 - lead + 1), 9))
+    last = _decade(resolution) - 1  # decade of the last digit shown
+    rounded = round(value / 10.0**last) * 10.0**last
+    if rounded == 0:
+        return _eng(0.0, unit, 0)
+    return _eng(rounded, unit, min(max(0, _prefix_exponent(rounded) - last), 9))

@@ -64,10 +64,24 @@ def test_known_values_common_practice():
     c = Circuit.parse("R1 + L1 + C1")
     f0 = 1 / (2 * np.pi * np.sqrt(1e-6 * 1e-9))
     assert c.impedance(np.array([f0]), {"R1": 3.0, "L1": 1e-6, "C1": 1e-9})[0] == pytest.approx(3.0, abs=1e-9)
-    # A CPE with n = 1 is a capacitor with C = Q, n = 0 a resistor 1/Q (its published definition).
+    # CPE Z = 1/(Q (j w)^n): n = 1 is a capacitor with C = Q, n = 0 a resistor 1/Q
+    # (common practice, no source).
     p = Circuit.parse("P1")
     assert np.allclose(p.impedance(FREQ, {"P1_Q": 2e-9, "P1_n": 1.0}), 1 / (2j * np.pi * FREQ * 2e-9))
     assert np.allclose(p.impedance(FREQ, {"P1_Q": 0.01, "P1_n": 0.0}), 100.0)
+
+
+def test_ideal_elements_and_their_combinations_follow_the_handbook():
+    # Z_L = j w L, Z_C = 1/(j w C); series impedances add, parallel admittances add (common practice,
+    # no source); so R1 || R2 = R1 R2/(R1 + R2) and C1 + C2 in series is C1 C2/(C1 + C2).
+    w = 2 * np.pi * FREQ
+    np.testing.assert_allclose(Circuit.parse("L1").impedance(FREQ, {"L1": 3e-6}), 1j * w * 3e-6, rtol=1e-12)
+    np.testing.assert_allclose(Circuit.parse("C1").impedance(FREQ, {"C1": 4e-9}), 1 / (1j * w * 4e-9),
+                               rtol=1e-12)
+    np.testing.assert_allclose(Circuit.parse("R1 || R2").impedance(FREQ, {"R1": 30.0, "R2": 60.0}), 20.0,
+                               rtol=1e-12)
+    series_c = Circuit.parse("C1 + C2").impedance(FREQ, {"C1": 2e-9, "C2": 6e-9})
+    np.testing.assert_allclose(series_c, 1 / (1j * w * 1.5e-9), rtol=1e-12)
 
 
 def _random_network(rng, depth=0, counter=None):

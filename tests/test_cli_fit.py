@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import hashlib
 import json
 import math
 
@@ -57,7 +58,9 @@ def test_fit_writes_every_output_with_the_right_values(tmp_path, capsys):
     l_eff = TRUE["L1"] / (1 - w**2 * TRUE["L1"] * TRUE["Cp"])
     assert abs(at["L_eff"]["value"] - l_eff) < 5 * at["L_eff"]["stderr"]
     assert at["Q"]["value"] == pytest.approx(w * at["L_eff"]["value"] / at["ESR"]["value"], rel=1e-9)
-    assert data["run"]["inputs"][0]["path"] == str(csv) and len(data["run"]["inputs"][0]["sha256"]) == 64
+    assert data["run"]["inputs"][0]["path"] == str(csv)
+    # SHA-256 of the input bytes by hashlib (Python standard library)
+    assert data["run"]["inputs"][0]["sha256"] == hashlib.sha256(csv.read_bytes()).hexdigest()
 
     curve = pd.read_csv(out / "curve.csv")
     assert len(curve) == 101 and curve["residual_abs_rel"].abs().max() < 0.02

@@ -147,7 +147,7 @@ def test_resonance_matches_sympy_zero_of_the_reactance():
 
 
 def test_no_resonance_says_so():
-    # a resistor with lead inductance never resonates
+    # a resistor with lead inductance never resonates: X = w L > 0 at every f (common practice, no source)
     result = synthetic_result("R1 + L1", {"R1": 10.0, "L1": 1e-9}, np.geomspace(1e3, 1e7, 41))
     design = design_values(result, [1e6])
     assert design.resonances == ()
@@ -220,7 +220,7 @@ def test_no_covariance_says_why():
 
 def test_fixed_parameters_carry_no_uncertainty():
     result = synthetic_result(fixed=("Rs",))
-    # Rs fixed and L || C lossless: ESR = Rs exactly
+    # Rs fixed and L || C lossless: ESR = Rs exactly (common practice, no source)
     assert design_values(result, [1e6]).points[0].values["ESR"].stderr == pytest.approx(0.0, abs=1e-15)
     lossless = synthetic_result("L1 || C1", {"L1": 1e-6, "C1": 1e-9}, np.geomspace(1e5, 1e8, 61),
                                 fixed=("L1", "C1"), with_uvars=False)
@@ -228,7 +228,8 @@ def test_fixed_parameters_carry_no_uncertainty():
     q = design.points[0].values["Q"]
     assert q.value == math.inf and q.stderr is None and "no loss" in q.note
     assert "fixed by the user" in design.uncertainty_note
-    # lossless L || C: the parallel resonance 1/(2 pi sqrt(LC)) through the pole of Z (common practice)
+    # lossless L || C: the parallel resonance 1/(2 pi sqrt(LC)) through the pole of Z (common practice,
+    # no source)
     f0 = 1 / (2 * math.pi * math.sqrt(1e-6 * 1e-9))
     assert design.resonances[0].frequency.value == pytest.approx(f0, rel=1e-9)
 

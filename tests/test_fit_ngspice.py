@@ -48,8 +48,14 @@ def test_simulated_part_recovered_within_its_uncertainty(part, band):
     result = fit(bench(f, z, seed=1), expression)
     assert result.success and not result.flags
     assert_recovered(result, truth)
-    # With absolute sigmas the reduced chi-square of a right model is near 1 (chi-square with ~2M dof).
+    # With absolute sigmas the reduced chi-square of a right model is near 1 (chi-square with ~2M dof;
+    # common practice, no source).
     assert 0.75 < result.reduced_chi_square < 1.3
+    # AIC = chi2 + 2k, BIC = chi2 + k ln n for Gaussian errors of known sigma (Akaike 1974, Schwarz 1978;
+    # from memory)
+    k, n = len(truth), 2 * f.size
+    assert result.aic == pytest.approx(result.chi_square + 2 * k, rel=1e-12)
+    assert result.bic == pytest.approx(result.chi_square + k * np.log(n), rel=1e-12)
 
 
 def test_proportional_weighting_recovers_the_choke_too():
@@ -57,7 +63,8 @@ def test_proportional_weighting_recovers_the_choke_too():
     f, z = simulate(netlist, 1e3, 1e8)  # ngspice AC analysis
     result = fit(bench(f, z, seed=2, absolute=False), expression)
     assert_recovered(result, truth)
-    # The noise level estimated from the residuals: chi-square / dof with unit weights ~ SIGMA^2.
+    # The noise level estimated from the residuals: chi-square / dof with unit weights ~ SIGMA^2
+    # (common practice, no source).
     assert result.reduced_chi_square == pytest.approx(SIGMA**2, rel=0.2)
 
 

@@ -69,17 +69,24 @@ def test_every_plot_is_embedded(hostile_report):
     assert len(images) == len(figures) == 3
     for data in images:
         png = base64.b64decode(data)
+        # PNG file signature (PNG specification, from memory)
         assert png[:8] == b"\x89PNG\r\n\x1a\n" and len(png) > 10_000
 
 
 def test_report_has_every_section(hostile_report):
     html, _ = hostile_report
+    result = synthetic_result()  # same seed and values as the fixture: the Cramer-Rao covariance built here
+    names = result.correlation_names
+    rel_percent = 100 * result.parameters["L1"].stderr / result.parameters["L1"].value
+    corr_l_cp = result.correlation[names.index("L1"), names.index("Cp")]
     for heading in ("Part and input", "Options of this run", "Conversions and corrections applied", "Model",
                     "Fitted values", "Correlation matrix", "Fit quality", "Flags", "Design values", "Plots",
                     "Safety"):
         assert f"<h2>{heading}</h2>" in html
     assert "ab" * 32 in html  # the input checksum
-    assert "22.0000 uH +/- 0.018 %" in html and "-0.884" in html  # value and the L1-Cp correlation
+    # value, its relative error (two digits) and the L1-Cp correlation, all from the test's own covariance
+    assert f"22.0000 uH +/- {rel_percent:.2g} %" in html and f"{corr_l_cp:.3f}" in html
+    assert corr_l_cp < -0.5  # L and C of one resonance trade against each other (common practice, no source)
     assert "--at" in html and "100k" in html and "0.1.0" in html
     for caution in ("Stored charge", "scope ground clip", "Shunt dissipation", "Instrument ratings",
                     "local electrical codes", "licensed practice"):

@@ -49,6 +49,7 @@ def test_series_resonance_of_a_capacitor():
     assert s.resonances[0].frequency == pytest.approx(1 / (2 * math.pi * math.sqrt(esl * C)), rel=1e-3)
     assert s.resonances[0].magnitude == pytest.approx(esr, rel=0.05)
     assert s.bands[0].kind == "capacitive" and s.bands[-1].kind == "inductive"
+    # |Z| = ESR at series resonance (common practice, no source)
     assert s.z_min == pytest.approx(esr, rel=0.01)
 
 
@@ -87,4 +88,5 @@ def test_cli_inspect_writes_table_and_plot(tmp_path, capsys):
     assert "apparent resonances" in capsys.readouterr().out
     table = pd.read_csv(out_csv)
     np.testing.assert_allclose(table["z_real_ohm"], m.impedance.real, rtol=1e-12)
+    # PNG file signature (PNG specification, from memory)
     assert out_png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

@@ -56,6 +56,7 @@ def check(m, f, z_ngspice):
 
 def test_scope_with_shunt_in_mv_pp_and_kilohertz(bench, tmp_path):
     f, v_part, v_shunt, _, z = bench
+    # ngspice's AC amplitudes are peak; pp = 2 peak, rms = peak / sqrt(2) (common practice, no source)
     path = write(tmp_path / "scope.csv",
                  ["Frequency (kHz)", "Ch1 V(DUT) (mV pp)", "Ch1 Phase (deg)", "Ch2 V(shunt) (mV rms)",
                   "Ch2 Phase (rad)"],
@@ -78,7 +79,7 @@ def test_voltage_and_current_semicolons_decimal_commas(bench, tmp_path):
 
 def test_ratio_against_the_shunt_as_reference_in_db_tab_descending(bench, tmp_path):
     f, v_part, v_shunt, _, z = bench
-    h = v_part / v_shunt
+    h = v_part / v_shunt  # gain in dB = 20 log10 of the voltage ratio (common practice, no source)
     path = write(tmp_path / "gain.txt", ["Frequency (Hz)", "Gain (dB)", "Phase (deg)"],
                  [f, 20 * np.log10(abs(h)), deg(h)], delimiter="\t", reverse=True,
                  preamble=("# gain/phase analyzer, B/A", "# reference 0.1 ohm"))
@@ -89,6 +90,7 @@ def test_ratio_against_the_shunt_as_reference_in_db_tab_descending(bench, tmp_pa
 
 def test_latin1_micro_amperes_rms_with_peak_voltage(bench, tmp_path):
     f, v_part, _, current, z = bench
+    # rms = peak / sqrt(2) (common practice, no source); micro = 1e-6 (BIPM SI Brochure, from memory)
     path = write(tmp_path / "latin1.csv",
                  ["f (Hz)", "V (V peak)", "Phase V (°)", "I (µA rms)", "Phase I (°)"],
                  [f, abs(v_part), deg(v_part), 1e6 * abs(current) / math.sqrt(2), deg(current)],

@@ -48,7 +48,7 @@ def test_phase_wraps_into_half_open_interval(phase, wrapped):
 
 def test_phase_units_and_polar_form_match_the_standard_library():
     # cmath.rect is the Python standard library's polar -> complex conversion.
-    assert phase_to_radians(90.0, "deg") == pytest.approx(math.pi / 2)
+    assert phase_to_radians(90.0, "deg") == pytest.approx(math.pi / 2)  # common practice, no source
     assert phase_to_radians(1.25, "rad") == pytest.approx(1.25)
     with pytest.raises(ValueError):
         phase_to_radians(1.0, "grad")
@@ -87,5 +87,15 @@ def test_inductor_waveforms_give_positive_reactance_with_either_reference(refere
 
 
 def test_phase_difference_is_wrapped():
+    # 170 - (-170) = 340 deg, which is -20 deg in (-180, 180] (common practice, no source)
     z = phasors_to_impedance(1.0, math.radians(170.0), 1.0, math.radians(-170.0))
     assert math.degrees(cmath.phase(z)) == pytest.approx(-20.0, abs=1e-12)
+    assert abs(z) == pytest.approx(1.0, rel=1e-15)
+
+
+def test_a_sine_reference_shifts_both_channels_and_cancels():
+    # the same -90 deg shift on V and I leaves V / I unchanged (common practice, no source)
+    z = phasors_to_impedance(2.0, math.radians(30.0), 0.5, math.radians(-15.0))
+    shifted = phasors_to_impedance(2.0, math.radians(30.0 - 90.0), 0.5, math.radians(-15.0 - 90.0))
+    assert z == pytest.approx(cmath.rect(4.0, math.radians(45.0)), rel=1e-12)
+    assert shifted == pytest.approx(z, rel=1e-12)

@@ -12,6 +12,7 @@ from spice_sim import ac_analysis
 
 from fitz_tool.circuit import Circuit
 from fitz_tool.derived import design_values
+from fitz_tool.exceptions import InputError
 from fitz_tool.fitting import fit
 from fitz_tool.measurement import Measurement
 from fitz_tool.selection import is_adequate
@@ -97,5 +98,5 @@ def test_poorly_determined_core_loss_gets_a_one_sided_interval_not_a_symmetric_e
 
 def test_interval_mode_is_checked():
     m = noisy(np.full(11, 10.0 + 0j), np.logspace(2, 4, 11), 0.01, seed=1)
-    with pytest.raises(Exception, match="intervals='some'"):
+    with pytest.raises(InputError, match="intervals='some'"):
         fit(m, "R1", intervals="some")

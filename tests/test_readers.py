@@ -47,6 +47,7 @@ def assert_z(m, z=Z, rel=1e-12):
 # --- the five forms -------------------------------------------------------------------------------------
 
 def test_form_a_voltage_and_current_phasors_with_mixed_conventions(tmp_path):
+    # peak = sqrt(2) rms = pp / 2 for a sinusoid (common practice, no source)
     path = write(tmp_path, "vi.csv", ["Frequency (kHz)", "V (mV rms)", "Phase V (deg)", "I (mA pp)",
                                       "Phase I (deg)"],
                  [F / 1e3, 1e3 * abs(V_PHASOR) / math.sqrt(2), deg(V_PHASOR), 2e3 * abs(I_PHASOR),
@@ -60,6 +61,7 @@ def test_form_a_voltage_and_current_phasors_with_mixed_conventions(tmp_path):
 
 
 def test_form_b_part_and_shunt_voltages_need_the_shunt(tmp_path):
+    # I = V(shunt) / R(shunt); Vpp = 2 peak, rms = peak / sqrt(2) (common practice, no source)
     shunt = 0.1
     header = ["f [MHz]", "Ch1 Amplitude (Vpp)", "Ch1 Phase (rad)", "Ch2 V(shunt) (mV rms)", "Ch2 Phase (rad)"]
     path = write(tmp_path, "vsh.csv", header,
@@ -82,6 +84,8 @@ def test_form_c_magnitude_and_phase(tmp_path):
     assert m.provenance.units["frequency"] == "Hz (assumed)"
 
 
+# SI prefixes m = 1e-3, k = 1e3 (BIPM SI Brochure, from memory); "-Z''" columns hold minus the reactance, as
+# impedance-spectroscopy plots show it (common practice, no source)
 @pytest.mark.parametrize(("real", "imag", "scale", "sign"), [
     ("R (ohm)", "X (ohm)", 1.0, 1), ("Rs", "Xs", 1.0, 1), ("Re(Z) (mOhm)", "Im(Z) (mOhm)", 1e-3, 1),
     ("ESR (kΩ)", "Reactance (kΩ)", 1e3, 1), ("Z' (Ohm)", "-Z'' (Ohm)", 1.0, -1),
@@ -97,7 +101,7 @@ def test_form_d_resistance_and_reactance(tmp_path, real, imag, scale, sign):
 @pytest.mark.parametrize("in_db", [True, False])
 def test_form_e_transfer_ratio_against_a_reference_resistor(tmp_path, in_db):
     r_ref = 4.7
-    h = Z / r_ref
+    h = Z / r_ref  # V(part) / V(reference) = Z / R_ref; dB = 20 log10 |h| (common practice, no source)
     header = ["Frequency (Hz)", "Gain (dB)" if in_db else "Ratio", "Phase (deg)"]
     path = write(tmp_path, "ratio.csv", header, [F, 20 * np.log10(abs(h)) if in_db else abs(h), deg(h)])
     m = read_measurement(path, ReadOptions(reference=r_ref))
@@ -135,6 +139,8 @@ def test_delimiters_decimal_marks_and_preamble(tmp_path, delimiter, decimal):
 @pytest.mark.parametrize(("encoding", "bom"), [("utf-8", True), ("utf-16", False), ("latin-1", False),
                                                ("utf-8", False)])
 def test_encodings_with_micro_sign(tmp_path, encoding, bom):
+    # micro = 1e-6 (BIPM SI Brochure, from memory); the UTF-8 byte-order mark is EF BB BF (Unicode
+    # standard, from memory)
     path = write(tmp_path, "enc.csv", ["Frequency (kHz)", "Voltage (µV)", "Voltage phase (°)",
                                        "Current (µA)", "Current phase (°)"],
                  [F / 1e3, 1e6 * abs(V_PHASOR), deg(V_PHASOR), 1e6 * abs(I_PHASOR), deg(I_PHASOR)],

@@ -62,6 +62,7 @@ def test_bare_magnitude_in_db_is_refused_unless_it_says_db_ohm(tmp_path):
 
 # --- spellings ------------------------------------------------------------------------------------------
 
+# SI prefix multipliers k, M, G, m (BIPM SI Brochure, from memory)
 @pytest.mark.parametrize(("freq", "scale"), [
     ("Frequency/Hz", 1.0), ("f/kHz", 1e3), ("Freq(MHz)", 1e6), ("FREQ [GHz]", 1e9), ("freq_khz", 1e3),
 ])
@@ -76,6 +77,7 @@ def test_polar_spellings(tmp_path, freq, scale, mag, mag_scale):
     np.testing.assert_allclose(m.impedance, Z, rtol=1e-12)
 
 
+# phases without a unit are degrees, as bench instruments report them (common practice, no source)
 @pytest.mark.parametrize(("phase", "to_unit"), [
     ("Theta", np.degrees), ("θ", np.degrees), ("Phase Z", np.degrees), ("arg(Z)", np.degrees),
     ("Phase (°)", np.degrees), ("θ (rad)", lambda x: x), ("phi/deg", np.degrees),
@@ -147,14 +149,17 @@ def test_lcr_meter_pairs_give_the_impedance_they_were_made_from(tmp_path, reacti
 def test_lcr_capacitor_at_one_frequency_against_the_handbook(tmp_path):
     # 100 nF with 20 mohm ESR at 10 kHz: Z = 0.02 - j/(2 pi 1e4 1e-7) = 0.02 - j 159.15 ohm
     # (common practice, no source)
+    w, c, esr = 2 * np.pi * 1e4, 100e-9, 0.02
     path = tmp_path / "c.csv"
-    path.write_text("Frequency (kHz),Cs (nF),D\n10,100,1.2566370614359172e-4\n")
+    path.write_text(f"Frequency (kHz),Cs (nF),D\n10,100,{w * c * esr!r}\n")  # D = w C ESR
     z = read_measurement(path).impedance[0]
-    assert z.real == pytest.approx(0.02, rel=1e-12)
-    assert z.imag == pytest.approx(-159.15494309189535, rel=1e-12)
+    assert z.real == pytest.approx(esr, rel=1e-12)
+    assert z.imag == pytest.approx(-1 / (w * c), rel=1e-12)
+    assert z.imag == pytest.approx(-159.155, rel=1e-5)
 
 
 def test_lcr_dissipation_in_percent(tmp_path):
+    # D in percent is 100 D (common practice, no source)
     path = write(tmp_path, ["Frequency (Hz)", "Cs (F)", "D (%)"], [F, CS, 100 * RS * W * CS])
     np.testing.assert_allclose(read_measurement(path).impedance, Z, rtol=1e-12)
 

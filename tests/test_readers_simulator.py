@@ -17,10 +17,12 @@ from fitz_tool.readers import ReadOptions, read_measurement
 F = np.logspace(3, 7, 9)
 W = 2 * np.pi * F
 Z = 1 / (1 / (1.5 + 1j * W * 22e-6) + 1j * W * 47e-12)
-I_SOURCE = -0.01 * np.exp(1j * np.linspace(0, 1, F.size))  # a source's current, counted into its + terminal
+# a source's current, counted into its + terminal (SPICE convention, ngspice manual, from memory)
+I_SOURCE = -0.01 * np.exp(1j * np.linspace(0, 1, F.size))
 
 
 def polar(x):
+    # magnitude in dB = 20 log10 |x|, angle in degrees (common practice, no source)
     return f"({20 * np.log10(abs(x)):.15e}dB,{np.degrees(np.angle(x)):.15e}°)"
 
 

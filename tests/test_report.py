@@ -47,10 +47,13 @@ def test_terminal_report_reads_like_a_bench_notebook():
     text = format_fit_report(result, _selection(result), design_values(result, [100e3]))
     assert "Model: Rs + L1 || Cp" in text
     assert "Model ranking" in text and "misses the resonance" in text
-    assert "L1    22.0000 uH +/- 0.018 %" in text  # value digits limited by its standard error
+    rel_percent = 100 * result.parameters["L1"].stderr / 22e-6  # the test's own Cramer-Rao covariance
+    assert f"L1    22.0000 uH +/- {rel_percent:.2g} %" in text  # value digits limited by its standard error
     for item in ("reduced chi-square", "AIC", "BIC", "free parameters", "weighting", "converged"):
         assert item in text
-    assert "SRF (parallel, in the sweep): 8.761" in text
+    # parallel SRF of 22 uH || 15 pF: 1/(2 pi sqrt(L C)) = 8.761 MHz (common practice, no source)
+    f0 = 1 / (2 * math.pi * math.sqrt(22e-6 * 15e-12))
+    assert f"SRF (parallel, in the sweep): {f0 / 1e6:.3f}" in text
     assert "L_eff" in text and "ESR" in text and "Q " in text
 
 
@@ -59,7 +62,7 @@ def test_values_without_uncertainty_say_why():
     text = format_fit_report(result, None, design_values(result, [100e3]))
     assert "covariance could not be computed" in text
     assert format_value(0.8734, "", None) == "0.8734"
-    assert format_value(0.8734, "", 0.0021) == "0.8734 +/- 0.24 %"
+    assert format_value(0.8734, "", 0.0021) == "0.8734 +/- 0.24 %"  # 0.0021 / 0.8734 = 0.24 %
 
 
 def test_json_follows_the_machine_interface_and_is_strict():
@@ -79,7 +82,10 @@ def test_json_follows_the_machine_interface_and_is_strict():
     (res,) = back["derived"]["resonances"]
     assert res["frequency"]["unit"] == "Hz" and res["kind"] == "parallel"
     at = back["derived"]["at"][0]
-    assert at["frequency"] == 100e3 and at["values"]["L_eff"]["value"] == pytest.approx(22e-6, rel=1e-3)
+    # Rs + L || C below resonance: L_eff = L / (1 - w^2 L C) (common practice, no source)
+    w = 2 * math.pi * 100e3
+    l_eff = 22e-6 / (1 - w**2 * 22e-6 * 15e-12)
+    assert at["frequency"] == 100e3 and at["values"]["L_eff"]["value"] == pytest.approx(l_eff, rel=1e-9)
     assert back["provenance"]["source"] == "bench/output_choke.csv" and back["run"]["version"] == "0.1.0"
 
 

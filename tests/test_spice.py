@@ -78,7 +78,8 @@ def test_cpe_network_is_passive_and_accurate_over_the_sweep(n):
     assert net.max_relative_error < CPE_TOLERANCE
     assert all(r > 0 and c > 0 for r, c in net.cells)
     assert net.series_resistance >= 0 and (net.series_capacitance is None or net.series_capacitance > 0)
-    # independent check on a different grid against the published CPE definition Z = 1/(Q (jw)^n)
+    # independent check on a different grid against the CPE definition Z = 1/(Q (jw)^n)
+    # (common practice, no source)
     f = np.geomspace(10.0, 1e7, 777)
     exact = 1 / (1e-5 * (2j * np.pi * f) ** n)
     assert np.max(np.abs(net.impedance(f) / exact - 1)) < 1e-8
@@ -120,6 +121,7 @@ def test_bad_names_and_values_are_refused():
 
 
 def test_special_cpe_exponents_are_written_exactly():
+    # Z = 1/(Q (jw)^n): n = 1 is a capacitor C = Q, n = 0 a resistor 1/Q (common practice, no source)
     for n, element in ((1.0, "C_P1"), (0.0, "R_P1")):
         result = synthetic_result("Rs + P1", {"Rs": 1.0, "P1_Q": 1e-6, "P1_n": n}, fixed=("P1_n",))
         text = to_spice_subcircuit(result)

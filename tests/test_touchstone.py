@@ -139,6 +139,7 @@ def test_a_two_port_file_with_per_port_references_reads_back_the_part(tmp_path, 
 
 
 def test_points_where_the_conversion_is_singular_are_dropped_and_counted(tmp_path):
+    # S11 = 1 is an open: Z = Z0 (1 + S11)/(1 - S11) has no finite value there (common practice, no source)
     path = tmp_path / "open_end.s1p"
     path.write_text("# MHz S RI R 50\n0 0.2 0\n1 0.5 0.1\n2 1 0\n3 0.4 0.2\n4 1 0\n")
     m = read_touchstone(path, None)
@@ -150,6 +151,33 @@ def test_points_where_the_conversion_is_singular_are_dropped_and_counted(tmp_pat
         read_touchstone(path, None)
 
 
+def test_an_option_line_with_no_fields_means_ghz_s_ma_and_50_ohm(tmp_path):
+    # Touchstone defaults "# GHz S MA R 50" (Touchstone File Format Specification, from memory), checked
+    # against scikit-rf's reader of the same file.
+    path = tmp_path / "defaults.s1p"
+    path.write_text("#\n1 0.5 0\n2 0.5 90\n")
+    m = read_touchstone(path, None)
+    reference = skrf.Network(str(path))
+    np.testing.assert_allclose(m.frequency, [1e9, 2e9], rtol=1e-15)
+    np.testing.assert_allclose(m.frequency, reference.f, rtol=1e-15)
+    np.testing.assert_allclose(m.impedance, reference.z[:, 0, 0], rtol=1e-12)  # scikit-rf Network.z
+    # S11 = 0.5 at 0 deg on 50 ohm: Z = 50 (1.5 / 0.5) = 150 ohm (common practice, no source)
+    assert m.impedance[0] == pytest.approx(150.0, rel=1e-12)
+
+
+def test_option_line_is_case_insensitive_and_comments_are_ignored(tmp_path):
+    # option-line keywords are case-insensitive and "!" starts a comment (Touchstone specification, from
+    # memory); scikit-rf reads the same file as the reference.
+    path = tmp_path / "lower.s1p"
+    path.write_text("! bench comment\n# khz s ri r 25 ! trailing comment\n1 0.2 0.1\n2 -0.3 0.4 ! note\n")
+    m = read_touchstone(path, None)
+    reference = skrf.Network(str(path))
+    np.testing.assert_allclose(m.frequency, [1e3, 2e3], rtol=1e-15)
+    np.testing.assert_allclose(m.impedance, reference.z[:, 0, 0], rtol=1e-12)  # scikit-rf Network.z
+    s = np.array([0.2 + 0.1j, -0.3 + 0.4j])
+    np.testing.assert_allclose(m.impedance, 25 * (1 + s) / (1 - s), rtol=1e-12)  # common practice, no source
+
+
 def test_a_two_port_file_without_through_says_how_to_fix_it(tmp_path):
     s = two_port_of(np.full(5, 1.0 + 0j), "shunt", (50, 50))
     network = skrf.Network(frequency=frequency(5), s=s, z0=50)
@@ -158,6 +186,9 @@ def test_a_two_port_file_without_through_says_how_to_fix_it(tmp_path):
         read_touchstone(path, SimpleNamespace(through=None))
 
 
+# Touchstone 1.x layout (Touchstone File Format Specification, from memory): an option line
+# "# <unit> <parameter> <format> R <ohm>", ascending frequencies, per row the frequency and n^2 complex
+# values.
 BAD_FILES = {
     "truncated.s1p": ("# MHz S MA R 50\n1 0.5 10\n2 0.4 20\n3 0.3\n", "row 4 has 2 values.*truncated"),
     "wrong_parameter.s1p": ("# MHz Q MA R 50\n1 0.5 10\n", "row 1: option line.*unknown field 'q'"),

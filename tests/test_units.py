@@ -44,9 +44,30 @@ def test_value_without_uncertainty_has_four_significant_digits():
     assert format_quantity(47e-6, "F") == "47.00 uF"
 
 
+def test_a_value_that_rounds_up_to_the_next_prefix_keeps_four_significant_digits():
+    # 999.96 to four significant digits is 1000, i.e. 1.000 kHz (common practice, no source)
+    assert format_quantity(999.96, "Hz") == "1.000 kHz"
+
+
+def test_a_value_that_rounds_up_to_the_next_decade_keeps_four_significant_digits():
+    # 9.9996 uH to four significant digits is 10.00 uH (common practice, no source)
+    assert format_quantity(9.9996e-6, "H") == "10.00 uH"
+
+
+def test_a_value_with_uncertainty_that_rounds_up_to_the_next_prefix_keeps_its_resolution():
+    # two significant digits of 1.1 Hz put the last digit at 0.1 Hz: 1000.0 Hz = 1.0000 kHz
+    # (common practice, no source)
+    assert format_quantity(999.96, "Hz", 1.1) == "1.0000 kHz +/- 0.11 %"
+
+
 def test_interval_ends_show_the_digits_of_the_interval_width():
     # two significant digits of the half-width 0.011 uH fix the last decimal (common practice, no source)
     from fitz_tool.units import format_to_resolution
 
     assert format_to_resolution(21.982e-6, "H", 1.1e-8) == "21.982 uH"
     assert format_to_resolution(0.0, "ohm", 1e-3) == "0 ohm"
+
+
+def test_spice_meg_suffix_ignores_case():
+    # SPICE scale factors are case-insensitive, MEG = 1e6 (common practice, no source)
+    assert parse_quantity("10Meg") == parse_quantity("10MEG") == pytest.approx(1e7)
