@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import io
 import json
+import math
 import os
 import sys
 from collections.abc import Sequence
@@ -40,6 +41,9 @@ def _add_reader_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--through", choices=["shunt", "series"],
                        help=".s2p files: part shunted across the through line, or in series with it")
     group.add_argument("--band", metavar="FMIN:FMAX", help="keep only this frequency range, e.g. 1k:30M")
+    group.add_argument("--noise", metavar="REL:PHASE",
+                       help="stated standard uncertainty of each point of Z, e.g. 0.5%%:0.2deg (|Z| "
+                            "relative, phase); makes the weights absolute so chi-square tests the model")
     corr = parser.add_argument_group("corrections")
     corr.add_argument("--skew", metavar="SECONDS",
                       help="current channel delay relative to the voltage channel, removed as 2 pi f dt")
@@ -72,6 +76,21 @@ def _band(text: str) -> tuple[float, float]:
     return fmin, fmax
 
 
+def _noise(text: str) -> tuple[float, float]:
+    """``"0.5%:0.2deg"`` -> (0.005, phase in rad); the phase may be given in deg (default) or rad."""
+    if ":" not in text:
+        raise InputError(f"--noise {text!r}: expected REL:PHASE, e.g. 0.5%:0.2deg")
+    rel_text, phase_text = (part.strip() for part in text.split(":", 1))
+    relative = (parse_quantity(rel_text[:-1], "", "--noise |Z| part") / 100 if rel_text.endswith("%")
+                else parse_quantity(rel_text, "", "--noise |Z| part"))
+    if phase_text.lower().endswith("rad"):
+        phase = parse_quantity(phase_text[:-3], "", "--noise phase part")
+    else:
+        phase = math.radians(parse_quantity(phase_text.removesuffix("deg").removesuffix("\u00b0"), "",
+                                            "--noise phase part"))
+    return relative, phase
+
+
 def load_from_args(args):
     """Read the bench file and apply corrections as the options say; returns (Measurement, input paths)."""
     from .corrections import Corrections, apply_corrections
@@ -98,6 +117,9 @@ def load_from_args(args):
         load_value=parse_quantity(args.load_value, "ohm", "--load-value") if args.load_value else None,
     )
     measurement = apply_corrections(measurement, corrections)
+    if args.noise:
+        relative, phase = _noise(args.noise)
+        measurement = measurement.with_stated_noise(relative, phase)
     if args.band:
         fmin, fmax = _band(args.band)
         mask = (measurement.frequency >= fmin) & (measurement.frequency <= fmax)

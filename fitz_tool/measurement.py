@@ -145,6 +145,35 @@ class Measurement:
             changes["provenance"] = changes.get("provenance", self.provenance).with_step(step, warning)
         return dataclasses.replace(self, **changes)
 
+    def with_stated_noise(self, relative_magnitude: float, phase_rad: float) -> Measurement:
+        """Return a copy whose points carry a stated standard uncertainty (absolute, trusted weights).
+
+        Parameters
+        ----------
+        relative_magnitude : float
+            Standard uncertainty of |Z| relative to |Z| (0.005 for 0.5 %), i.e. of ln|Z|.
+        phase_rad : float
+            Standard uncertainty of the phase of Z in rad.
+
+        Where the measurement already carries per-point relative weights (e.g. from an S-parameter
+        conversion), those are refused rather than silently replaced.
+        """
+        where = self.provenance.source or "measurement"
+        if self.sigma_lnmag is not None or self.sigma_phase is not None:
+            raise InputError(f"{where}: this input already carries per-point weights from its "
+                             f"conversion ({self.provenance.form}); a stated noise level applies to inputs "
+                             "without them")
+        for name, value in (("relative |Z| noise", relative_magnitude), ("phase noise", phase_rad)):
+            if not (np.isfinite(value) and value > 0):
+                raise InputError(f"{where}: {name} must be a number above 0, e.g. --noise 0.5%:0.2deg")
+        n = len(self)
+        return self.replace(
+            step=(f"stated noise: {relative_magnitude * 100:.3g} % of |Z| and {np.degrees(phase_rad):.3g} "
+                  "deg of phase per point (absolute: uncertainties from this level, chi-square tests the "
+                  "model)"),
+            sigma_lnmag=np.full(n, relative_magnitude), sigma_phase=np.full(n, phase_rad),
+            sigma_absolute=True)
+
     def select(self, mask: np.ndarray, step: str) -> Measurement:
         """Return the points where ``mask`` is True, recording why."""
         mask = np.asarray(mask, dtype=bool)
