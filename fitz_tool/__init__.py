@@ -4,7 +4,7 @@ The public API (the CLI is a thin face over the same functions)::
 
     import fitz_tool as ft
     m = ft.read_measurement("sample_measurements/output_choke_scope.csv", ft.ReadOptions(shunt=0.1))
-    result = ft.fit(m, "Rs + L1 || Cp")
+    result = ft.fit(m, "(Rs + L1) || Cp")
     print(ft.format_fit_report(result, None, ft.design_values(result, [100e3])))
 
 Names are loaded on first use, so ``import fitz_tool`` stays light (matplotlib only loads for plots).
