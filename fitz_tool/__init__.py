@@ -25,6 +25,7 @@ _EXPORTS: dict[str, str] = {
     "Corrections": "corrections",
     "apply_corrections": "corrections",
     "summarize": "inspection",
+    "lin_kk": "kramers_kronig",
     # circuits and fitting
     "Circuit": "circuit",
     "PRESETS": "presets",

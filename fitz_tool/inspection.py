@@ -16,6 +16,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from .exceptions import InputError
+from .kramers_kronig import KramersKronigResult, lin_kk
 from .measurement import Measurement
 from .units import format_quantity
 
@@ -65,6 +67,8 @@ class InspectionSummary:
     f_at_z_max: float
     bands: tuple[Band, ...]
     resonances: tuple[Resonance, ...]
+    kramers_kronig: KramersKronigResult | None = None
+    kramers_kronig_skipped: str = ""
 
 
 def _classes(phase_deg: np.ndarray) -> np.ndarray:
@@ -97,7 +101,10 @@ def _crossing(f: np.ndarray, z: np.ndarray, a: int, b: int, series: bool) -> tup
 
 
 def summarize(measurement: Measurement) -> InspectionSummary:
-    """Points, ranges, inductive/capacitive bands and apparent resonances of a measurement.
+    """Points, ranges, inductive/capacitive bands, apparent resonances and a Lin-KK check of a measurement.
+
+    The Lin-KK check (``kramers_kronig.lin_kk``, a few ms) is skipped with the reason recorded when the
+    measurement is too short for it.
 
     Parameters
     ----------
@@ -119,9 +126,14 @@ def summarize(measurement: Measurement) -> InspectionSummary:
             resonances.append(Resonance(frequency, magnitude, "series" if series else "parallel",
                                         "minimum" if series else "maximum"))
     low, high = int(np.argmin(mag)), int(np.argmax(mag))
+    try:
+        kk, skipped = lin_kk(measurement), ""
+    except InputError as error:
+        kk, skipped = None, str(error)
     return InspectionSummary(points=len(measurement), f_min=float(f[0]), f_max=float(f[-1]),
                              z_min=float(mag[low]), f_at_z_min=float(f[low]), z_max=float(mag[high]),
-                             f_at_z_max=float(f[high]), bands=_bands(f, cls), resonances=tuple(resonances))
+                             f_at_z_max=float(f[high]), bands=_bands(f, cls), resonances=tuple(resonances),
+                             kramers_kronig=kk, kramers_kronig_skipped=skipped)
 
 
 def format_summary(summary: InspectionSummary, measurement: Measurement) -> str:
@@ -145,6 +157,10 @@ def format_summary(summary: InspectionSummary, measurement: Measurement) -> str:
                          f"(|Z| {r.extremum})")
     else:
         lines.append("apparent resonances: none in the measured range")
+    if summary.kramers_kronig is not None:
+        lines.append(f"Kramers-Kronig (Lin-KK): {summary.kramers_kronig.note}")
+    else:
+        lines.append(f"Kramers-Kronig (Lin-KK): not run ({summary.kramers_kronig_skipped})")
     if p.steps:
         lines.append("steps")
         lines += [f"  - {step}" for step in p.steps]
