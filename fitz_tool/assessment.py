@@ -35,7 +35,7 @@ from .profile import (
     profile_interval,
 )
 from .results import FitResult, ParameterEstimate
-from .units import format_quantity
+from .units import format_quantity, format_to_resolution
 
 if TYPE_CHECKING:
     from .circuit import Circuit
@@ -186,8 +186,12 @@ def _estimate(c: _Context, i: int, name: str, value: float) -> tuple[ParameterEs
             flag = f"{where}: the data push it against the bound you gave{inside}; widen the bound"
             stderr, why = None, f"at the {side} bound you gave: no standard error there"
         elif edges is not None:
-            flag = f"{where}: {why}; fix it or use a simpler model"
-            why = f"at the {side} bound, {why}"
+            # a closed, symmetric interval leaves ``why`` empty (the stderr stands): name the interval instead
+            half = (edges[1] - edges[0]) / 2
+            detail = why or ("68 % profile-likelihood interval "
+                             + " - ".join(format_to_resolution(v, unit, half) for v in edges))
+            flag = f"{where}: {detail}; fix it or use a simpler model"
+            why = f"at the {side} bound, {why}" if why else ""
         else:
             flag = (f"{where}: the data do not hold it inside the allowed range; fix it, bound it, or "
                     "widen the sweep")

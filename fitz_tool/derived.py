@@ -121,6 +121,12 @@ def frequency_derivative(result: FitResult, frequency: np.ndarray | float) -> np
     f = np.atleast_1d(np.asarray(frequency, dtype=float))
     values = result.values
     _, gradient = result.circuit.impedance_gradient(f, values)
+    return _euler_derivative(result, f, gradient)
+
+
+def _euler_derivative(result: FitResult, f: np.ndarray, gradient: dict[str, np.ndarray]) -> np.ndarray:
+    """dZ/df (ohm/Hz) from the parameter gradient of Z at ``f`` (Hz), by the relation above."""
+    values = result.values
     total = np.zeros(f.shape, dtype=complex)
     for element in result.circuit.elements:
         if element.kind in ("L", "C"):
@@ -131,23 +137,40 @@ def frequency_derivative(result: FitResult, frequency: np.ndarray | float) -> np
     return total / f
 
 
-def _propagate(gradient: dict[str, float], names: Sequence[str],
-               covariance: np.ndarray | None) -> float | None:
-    if covariance is None:
-        return None
-    j = np.array([gradient.get(n, 0.0) for n in names], dtype=float)
-    variance = float(j @ covariance @ j) if j.size else 0.0
-    return math.sqrt(max(variance, 0.0))
+@dataclass(frozen=True)
+class _Propagation:
+    """What first-order propagation needs: the covariance (SI, ordered as ``names``, or None), why it is
+    None or what it leaves out (``note``), and the free parameters without a standard error (``left_out``)."""
+
+    names: tuple[str, ...]
+    covariance: np.ndarray | None
+    note: str
+    left_out: tuple[str, ...]
+
+    def stderr(self, gradient: dict[str, float]) -> tuple[float | None, str]:
+        """Standard uncertainty of a value with ``gradient`` {parameter: d value / d parameter}, and a note
+        when it is None.
+
+        A value that moves only with parameters left out of the covariance gets None rather than 0.
+        """
+        if self.covariance is None:
+            return None, self.note
+        j = np.array([gradient.get(n, 0.0) for n in self.names], dtype=float)
+        variance = max(float(j @ self.covariance @ j) if j.size else 0.0, 0.0)
+        hidden = [n for n in self.left_out if gradient.get(n, 0.0) != 0]
+        if variance == 0 and hidden:
+            return None, f"depends only on {', '.join(hidden)}, which has no standard error from the fit"
+        return math.sqrt(variance), ""
 
 
-def _value(name, label, value, gradient, names, covariance, unit, note) -> DerivedValue:
-    stderr = _propagate(gradient, names, covariance) if math.isfinite(value) else None
+def _value(name, label, value, gradient, propagation: _Propagation, unit, note=None) -> DerivedValue:
     if not math.isfinite(value):
-        note = note or "not finite for this model"
-    return DerivedValue(name, label, float(value), stderr, unit, "" if stderr is not None else note)
+        return DerivedValue(name, label, float(value), None, unit, note or "not finite for this model")
+    stderr, why = propagation.stderr(gradient)
+    return DerivedValue(name, label, float(value), stderr, unit, "" if stderr is not None else note or why)
 
 
-def _operating_point(result: FitResult, f: float, names, covariance, note: str) -> OperatingPoint:
+def _operating_point(result: FitResult, f: float, propagation: _Propagation) -> OperatingPoint:
     z, grads = result.circuit.impedance_gradient(np.array([f]), result.values)
     z = complex(z[0])
     dz = {n: complex(g[0]) for n, g in grads.items()}
@@ -157,8 +180,8 @@ def _operating_point(result: FitResult, f: float, names, covariance, note: str) 
     d_x = {n: g.imag for n, g in dz.items()}
     out: dict[str, DerivedValue] = {}
 
-    def add(name, label, value, grad, unit, why=note):
-        out[name] = _value(name, label, value, grad, names, covariance, unit, why)
+    def add(name, label, value, grad, unit, why=None):
+        out[name] = _value(name, label, value, grad, propagation, unit, why)
 
     inductive = x >= 0
     if inductive:
@@ -185,7 +208,7 @@ def _operating_point(result: FitResult, f: float, names, covariance, note: str) 
     return OperatingPoint(float(f), "inductive" if inductive else "capacitive", in_sweep, out)
 
 
-def _find_resonances(result: FitResult, names, covariance, note: str) -> list[Resonance]:
+def _find_resonances(result: FitResult, propagation: _Propagation) -> list[Resonance]:
     f_meas = result.measurement.frequency
     low, high = f_meas[0] / EXTRAPOLATION_FACTOR, f_meas[-1] * EXTRAPOLATION_FACTOR
     grid = np.geomspace(low, high, 4000)
@@ -201,7 +224,7 @@ def _find_resonances(result: FitResult, names, covariance, note: str) -> list[Re
         f0 = math.exp(log_f0)
         kind = "series" if x[k + 1] > x[k] else "parallel"
         z, grads = result.circuit.impedance_gradient(np.array([f0]), values)
-        dz_df = complex(frequency_derivative(result, f0)[0])
+        dz_df = complex(_euler_derivative(result, np.array([f0]), grads)[0])
         z0 = complex(z[0])
         if kind == "series":  # G = X
             d_g = {n: complex(g[0]).imag for n, g in grads.items()}
@@ -209,11 +232,13 @@ def _find_resonances(result: FitResult, names, covariance, note: str) -> list[Re
         else:  # G = Im Y = Im(1/Z); dY = -dZ / Z^2
             d_g = {n: (-complex(g[0]) / z0**2).imag for n, g in grads.items()}
             d_g_df = (-dz_df / z0**2).imag
-        gradient = {n: -v / d_g_df for n, v in d_g.items()} if d_g_df != 0 else {}
         in_sweep = bool(f_meas[0] <= f0 <= f_meas[-1])
         label = f"{kind} self-resonance" + ("" if in_sweep else " (extrapolated outside the sweep)")
-        why = note if d_g_df != 0 else "reactance does not change with frequency here"
-        value = _value("SRF", label, f0, gradient, names, covariance if d_g_df != 0 else None, "Hz", why)
+        if d_g_df != 0:
+            value = _value("SRF", label, f0, {n: -v / d_g_df for n, v in d_g.items()}, propagation, "Hz")
+        else:
+            value = DerivedValue("SRF", label, f0, None, "Hz",
+                                 "reactance does not change with frequency here")
         found.append(Resonance(value, kind, in_sweep))
     return found
 
@@ -244,8 +269,10 @@ def design_values(result: FitResult, at: Sequence[float] = ()) -> DesignValues:
         covariance, note = None, "no uncertainty: covariance does not match the parameter list"
     elif covariance is not None and not np.all(np.isfinite(covariance)):
         covariance, note = None, "no uncertainty: the fit's covariance is not finite"
-    points = tuple(_operating_point(result, float(f), names, covariance, note) for f in at)
-    resonances = tuple(_find_resonances(result, names, covariance, note))
+    left_out = tuple(n for n, p in result.parameters.items() if p.vary and n not in names)
+    propagation = _Propagation(tuple(names), covariance, note, left_out)
+    points = tuple(_operating_point(result, float(f), propagation) for f in at)
+    resonances = tuple(_find_resonances(result, propagation))
     if any(r.in_sweep for r in resonances):
         resonance_note = ""
     elif resonances:

@@ -229,7 +229,7 @@ def fit_figures(result: FitResult, design: DesignValues | None = None) -> dict[s
     Parameters
     ----------
     result : FitResult
-        The fit (measurement in Hz / ohm, model evaluated on a 600-point log grid over the sweep).
+        The fit (measurement in Hz / ohm, model evaluated on a 5000-point log grid over the sweep).
     design : DesignValues, optional
         When given, resonances (dashed green) and operating frequencies (dotted purple) are marked.
 

@@ -19,7 +19,7 @@ import pandas as pd
 
 from .derived import DerivedValue, DesignValues
 from .results import FitResult, ModelSelection
-from .units import format_quantity, format_relative, format_to_resolution
+from .units import format_quantity, format_to_resolution
 
 __all__ = ["InputFile", "RunRecord", "run_record", "format_fit_report", "fit_to_json", "curve_table",
            "format_value", "format_derived_value"]
@@ -91,18 +91,16 @@ def run_record(args: argparse.Namespace | dict, inputs: Iterable[str | Path], ve
 
 
 def format_value(value: float, unit: str, stderr: float | None = None) -> str:
-    """Engineering notation for a quantity with a unit; plain digits for a pure number (Q, D, exponent n).
+    """Engineering notation for a quantity with a unit; plain digits for a pure number (Q, D, exponent n)
+    and for a phase in degrees, whose uncertainty is absolute (``"89.873 deg +/- 0.0012 deg"``).
 
     Either way the value shows two significant digits of its uncertainty and no more.
     """
-    if unit not in ("", "deg") or not math.isfinite(value):
+    if unit != "deg" or not math.isfinite(value):
         return format_quantity(value, unit, stderr)
-    suffix = " deg" if unit == "deg" else ""
     if stderr is None or not math.isfinite(stderr) or stderr <= 0:
-        return f"{value:.4g}{suffix}"
-    places = min(max(0, 1 - math.floor(math.log10(stderr))), 12)
-    spread = f"{stderr:.2g}{suffix}" if unit == "deg" else format_relative(stderr, value)
-    return f"{value:.{places}f}{suffix} +/- {spread}"
+        return f"{format_quantity(value, '')} deg"
+    return f"{format_to_resolution(value, '', stderr)} deg +/- {stderr:.2g} deg"
 
 
 def format_derived_value(value: DerivedValue) -> str:

@@ -48,7 +48,7 @@ def parse_quantity(text: str, unit: str = "", what: str = "value") -> float:
         if trailing.lower() in ("ohm", "ohms", "\u03c9") and unit == "ohm":
             pass
         elif not unit or trailing.lower() != unit.lower():
-            # "100m" style where the prefix matched nothing and the tail is a prefix+unit, e.g. "2u2"? refuse.
+            # a unit where none is expected, or another unit than the one expected ("100 mV" for ohm)
             raise InputError(f"cannot read {what} {text!r}: unit {trailing!r} is not {unit or 'expected'}")
     return float(number) * prefix_factor(prefix)
 
@@ -70,16 +70,29 @@ def format_quantity(value: float, unit: str = "", stderr: float | None = None) -
     """Engineering notation with unit and relative uncertainty: ``"22.07 uH +/- 0.14 %"``.
 
     The value shows no more digits than its uncertainty supports (two significant digits of the
-    uncertainty); with no uncertainty it shows four significant digits and nothing else.
+    uncertainty); with no uncertainty it shows four significant digits and nothing else. A pure number
+    (``unit=""``: Q, D, a constant phase exponent) is written in plain digits, ``"0.8734 +/- 0.24 %"``,
+    not with a prefix (``"873.4 m"``).
     """
     if value is None or not math.isfinite(value):
         return f"{value} {unit}".strip()
+    if unit == "":
+        if stderr is None or not math.isfinite(stderr) or stderr <= 0:
+            return _plain(value, None)
+        return f"{_plain(value, stderr)} +/- {format_relative(stderr, value)}"
     if value == 0:
         return _eng(0.0, unit, 0) + ("" if stderr is None else f" +/- {_eng(stderr, unit, 2)}")
     if stderr is None or not math.isfinite(stderr) or stderr <= 0:
         rounded = float(f"{value:.4g}")  # round first: 999.96 becomes 1000, shown as 1.000 k
         return _eng(rounded, unit, max(0, 4 - (_decade(rounded) - _prefix_exponent(rounded) + 1)))
     return f"{format_to_resolution(value, unit, stderr)} +/- {format_relative(stderr, value)}"
+
+
+def _plain(value: float, resolution: float | None) -> str:
+    """A pure number in plain digits: down to two significant digits of ``resolution``, else four."""
+    if resolution is None or not (math.isfinite(resolution) and resolution > 0):
+        return f"{value:.4g}"
+    return f"{value:.{min(max(0, 1 - _decade(resolution)), 12)}f}"
 
 
 def _decade(value: float) -> int:
@@ -96,7 +109,10 @@ def format_to_resolution(value: float, unit: str, resolution: float) -> str:
 
     Used for a value whose uncertainty is stated elsewhere, e.g. the ends of an interval. The value is
     rounded to that resolution before the prefix is chosen, so a carry into the next prefix keeps its digits.
+    A pure number (``unit=""``) is written in plain digits, as in :func:`format_quantity`.
     """
+    if unit == "" and math.isfinite(value):
+        return _plain(value, resolution)
     if value == 0 or not math.isfinite(value) or not (math.isfinite(resolution) and resolution > 0):
         return format_quantity(value, unit)
     last = _decade(resolution) - 1  # decade of the last digit shown
