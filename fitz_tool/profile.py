@@ -26,7 +26,7 @@ from typing import Protocol
 import numpy as np
 from scipy.optimize import brentq, least_squares
 
-from .units import format_quantity
+from .units import format_quantity, format_to_resolution
 
 __all__ = ["Profiled", "ProfileInterval", "profile_interval", "interval_in_si", "judge_interval",
            "DEFAULT_STEP", "SYMMETRY_LIMIT", "UNDETERMINED_LIMIT", "APPROXIMATE_LIMIT"]
@@ -216,7 +216,9 @@ def judge_interval(name: str, value: float, unit: str, edges: tuple[float, float
             f"{name} is not determined by the data: {text} (68 % profile-likelihood interval); its effect is "
             f"too small within {f_text} or taken over by other parameters; fix it or use a simpler model")
     down, up = value - low, high - value
-    width = f"{fmt(low)} - {fmt(high)}"
+    resolution = min([d for d in (down, up) if d > 0], default=0.5 * (high - low))
+    ends = [format_to_resolution(v, unit, resolution) for v in (low, high)]  # digits the width supports
+    width = f"{ends[0]} - {ends[1]}"
     if min(up, down) > 0 and max(up, down) <= SYMMETRY_LIMIT * min(up, down):
         stderr = 0.5 * (high - low)
         if stderr > UNDETERMINED_LIMIT * abs(value):
