@@ -47,7 +47,7 @@ def test_reflection_conversion_matches_scikit_rf_for_random_loads():
     gamma = skrf.tlineFunctions.zl_2_Gamma0(z0, z)
     # scikit-rf: load impedance -> reflection coefficient, then back through our conversion.
     np.testing.assert_allclose(s11_to_z(gamma, z0), z, rtol=1e-9)
-    # Textbook Z = Z0 (1 + S11)/(1 - S11) (common practice, no source).
+    # Z = Z0 (1 + S11)/(1 - S11) (common practice, no source).
     np.testing.assert_allclose(s11_to_z(gamma, z0), z0 * (1 + gamma) / (1 - gamma), rtol=1e-9)
 
 
@@ -121,7 +121,7 @@ def test_a_reflection_file_reads_back_the_part_with_its_provenance(tmp_path):
     assert m.provenance.columns["reference"] == "50 ohm"
     assert m.provenance.units == {"frequency": "MHz", "S": "DB (dB, angle deg)"}
     assert not m.sigma_absolute
-    s11 = (z - 50) / (z + 50)  # textbook reflection coefficient (common practice, no source)
+    s11 = (z - 50) / (z + 50)  # reflection coefficient (common practice, no source)
     np.testing.assert_allclose(m.sigma_lnmag, lnz_sensitivity("touchstone_s11", s11), rtol=1e-6)
     np.testing.assert_array_equal(m.sigma_lnmag, m.sigma_phase)
 

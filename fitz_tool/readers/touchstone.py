@@ -75,7 +75,7 @@ _OPTION_HELP = "expected '# <Hz|kHz|MHz|GHz> S <MA|DB|RI> R <ohms>', e.g. '# MHz
 def s11_to_z(s11: np.ndarray, z0: Ohms = 50.0) -> np.ndarray:
     """Impedance in ohm of a one-port from its reflection S11 (reference ``z0`` in ohm): Z0 (1+S11)/(1-S11).
 
-    Uses scikit-rf's ``s2z`` (power waves; identical to the textbook relation for real ``z0``).
+    Uses scikit-rf's ``s2z`` (power waves; identical to the usual relation for real ``z0``).
     """
     s11 = np.asarray(s11, dtype=complex)
     z0 = np.broadcast_to(np.asarray(z0, dtype=complex), s11.shape)
