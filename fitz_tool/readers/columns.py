@@ -170,8 +170,21 @@ def _hint(form: str, candidates: dict[str, list[HeaderInfo]], headers: Sequence[
     parts = []
     for role in FORMS[form]:
         if len(candidates.get(role, [])) != 1:
-            parts.append(f"--map {role}='{spare.pop(0) if spare else 'HEADER'}'")
+            fits = [h for h in spare if _fits(role, parse_header(h, 0))]
+            if fits:
+                spare.remove(fits[0])
+            parts.append(f"--map {role}='{fits[0] if fits else 'HEADER'}'")
     return " ".join(parts)
+
+
+def _fits(role: str, info: HeaderInfo) -> bool:
+    """Whether a header could be meant for a role: it names no other subject and no other kind."""
+    subject = {"v": "voltage", "i": "current", "z": "impedance", "ratio": "ratio"}.get(role.split("_")[0])
+    kind = {"amplitude": "amplitude", "magnitude": "amplitude", "phase": "phase", "real": "real",
+            "imag": "imag"}.get(role.rsplit("_", 1)[-1])
+    if subject is None or kind is None:
+        return info.kind in (None, role) and info.subject is None
+    return info.subject in (None, subject) and info.kind in (None, kind)
 
 
 def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: str) -> ColumnPlan:

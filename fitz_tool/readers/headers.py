@@ -22,7 +22,7 @@ import re
 import unicodedata
 from dataclasses import dataclass
 
-__all__ = ["HeaderInfo", "parse_header", "parse_unit"]
+__all__ = ["HeaderInfo", "VectorName", "parse_header", "parse_unit", "parse_vector_name"]
 
 _PREFIX = r"(?P<prefix>meg|[fpnuµμmkKMGT])?"
 _BASE = (r"(?P<base>(?i:hz|v/v|db\(?(?:ohms?|Ω)\)?|ohms?|Ω|degrees?|deg|°|radians?|rad|db|v|a)|F|H|%)?")
@@ -221,8 +221,85 @@ def _classify(tokens: list[str], base: str) -> tuple[str | None, str | None, str
     return kind, subject, convention, from_unit
 
 
+#: ngspice vector names: ``vm(x)`` (short form), ``mag(v(x))`` (function form), ``v(x)`` / ``@r1[i]`` (bare).
+_VEC_BARE = re.compile(r"^(?:([vi])\(([^()]+)\)|(@[^\[\]\s]+\[i\]))$", re.IGNORECASE)
+_VEC_FUNC = re.compile(r"^(mag|ph|cph|real|re|imag|im|db)\((.+)\)$", re.IGNORECASE)
+_VEC_SHORT = re.compile(r"^([vi])(m|p|r|i|db)\(([^()]+)\)$", re.IGNORECASE)
+_VEC_UNIT = re.compile(r"^(.*\))\s*[\[(]\s*(deg|degrees|rad|radians|°)\s*[\])]$", re.IGNORECASE)
+_FUNC_PART = {"mag": "m", "ph": "p", "cph": "p", "real": "r", "re": "r", "imag": "i", "im": "i", "db": "db"}
+_PART_KIND = {"m": "amplitude", "p": "phase", "r": "real", "i": "imag", "db": "amplitude"}
+
+
+@dataclass(frozen=True)
+class VectorName:
+    """A column named after a circuit-simulator vector (ngspice spelling).
+
+    Attributes
+    ----------
+    vector : str
+        The complex vector, lower case: ``"v(dut)"``, ``"i(vsense)"``, ``"@r1[i]"``.
+    quantity : str
+        ``"voltage"`` or ``"current"``.
+    part : str
+        ``"m"`` magnitude, ``"p"`` phase, ``"r"`` real, ``"i"`` imaginary, ``"db"`` magnitude in dB re 1 V or
+        1 A, ``"pair"`` (a bare ``v(x)``: ngspice ``wrdata`` writes its real and imaginary parts under one
+        name).
+    phase_unit : str
+        ``"deg"`` or ``"rad"`` when the header states it, else ``""``.
+    print_style : bool
+        True for ``im(vsense)``-style current columns (SPICE ``.print`` names; ngspice's own control
+        language reads ``im()`` as the imaginary part, which is why only a bare source name counts).
+    """
+
+    vector: str
+    quantity: str
+    part: str
+    phase_unit: str = ""
+    print_style: bool = False
+
+
+def _bare(text: str) -> tuple[str, str] | None:
+    match = _VEC_BARE.match(text)
+    if match is None:
+        return None
+    if match.group(3):
+        return match.group(3).lower(), "current"
+    letter = match.group(1).lower()
+    return f"{letter}({match.group(2).strip().lower()})", "voltage" if letter == "v" else "current"
+
+
+def parse_vector_name(header: str) -> VectorName | None:
+    """An ngspice vector name (``vm(dut)``, ``ph(v(sh))``, ``mag(i(vsense))``, ``v(dut)``), or None.
+
+    A trailing phase unit (``vp(x) (deg)``) is read; any other header gives None.
+    """
+    text = unicodedata.normalize("NFKC", header).strip().strip("\"'").strip()
+    unit = ""
+    match = _VEC_UNIT.match(text)
+    if match:
+        text, unit = match.group(1).strip(), "rad" if match.group(2).lower().startswith("rad") else "deg"
+    function = _VEC_FUNC.match(text)
+    if function and _bare(function.group(2).strip()):
+        vector, quantity = _bare(function.group(2).strip())
+        return VectorName(vector, quantity, _FUNC_PART[function.group(1).lower()], unit)
+    short = _VEC_SHORT.match(text)
+    if short and short.group(3).strip().lower() not in IMPEDANCE:  # "Im(Z)" is the imaginary part of Z
+        letter, part, name = short.group(1).lower(), short.group(2).lower(), short.group(3).strip().lower()
+        return VectorName(f"{letter}({name})", "voltage" if letter == "v" else "current", part, unit,
+                          print_style=letter == "i")
+    bare = _bare(text)
+    if bare and not unit:
+        return VectorName(bare[0], bare[1], "pair")
+    return None
+
+
 def parse_header(header: str, index: int) -> HeaderInfo:
     """Read one header (see the module docstring); never raises, unknown parts come back as None."""
+    vector = parse_vector_name(header)
+    if vector is not None and vector.part != "pair":
+        return HeaderInfo(header=header, index=index, unit_text=vector.phase_unit, prefix="",
+                          base=vector.phase_unit or ("dB" if vector.part == "db" else ""), convention=None,
+                          kind=_PART_KIND[vector.part], subject=vector.quantity, group=None, negated=False)
     clean = unicodedata.normalize("NFKC", header).strip().lstrip("#!").strip()
     if len(clean) >= 2 and clean[0] == clean[-1] and clean[0] in "\"'":
         clean = clean[1:-1].strip()

@@ -13,6 +13,17 @@ Two layouts are recognized before the plain delimited reader is tried:
   own block of pages (the index restarts at 0); blocks are joined by index.
 
 ``find_simulator_table`` returns None for any other text, so the plain reader sees it unchanged.
+
+A third layout comes through the plain delimited reader: **real columns named after ngspice vectors**
+(``vector_table``), such as ``wrdata`` output with ``set wr_vecnames`` or a CSV of ``vm(dut) vp(dut) ...``.
+The columns of each vector are joined into one complex column: magnitude and phase (``vm``/``vp``,
+``mag()``/``ph()``/``cph()``), dB and phase (``vdb``, ``db()``; |x| = 10^(dB/20)), real and imaginary
+(``vr``/``vi``, ``real()``/``imag()``, ``re()``/``im()``), or a bare ``v(x)``/``i(x)``/``@r1[i]`` twice in a
+row (``wrdata`` writes real and imaginary parts under one name). ``im(vsense)``, ``ip(vsense)``,
+``ir``/``ii``/``idb`` of a bare source name are the SPICE ``.print`` names of the current through a
+voltage source. Phase columns with no unit: ngspice returns radians unless ``set units=degrees``, and that
+setting holds for every vector of a run, so all of them are read as radians when every value lies within
+[-pi, pi] (+1e-9), else all as degrees; the decision is a warning.
 """
 
 from __future__ import annotations
@@ -23,8 +34,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..exceptions import InputError
+from .delimited import TextTable, numeric_column
+from .headers import parse_header, parse_vector_name
 
-__all__ = ["ComplexTable", "parse_complex_cell", "find_simulator_table"]
+__all__ = ["ComplexTable", "parse_complex_cell", "find_simulator_table", "vector_table"]
 
 _NUM = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
 _POLAR = re.compile(rf"\(\s*({_NUM})\s*(dB)?\s*,\s*({_NUM})\s*(?:Â?°|deg)?\s*\)", re.IGNORECASE)
@@ -56,6 +69,11 @@ class ComplexTable:
         1-based line of each row (for ngspice print: the line of the first vector's row).
     notes : tuple of str
         Skipped lines and cell forms, in words.
+    sources : tuple of tuple of str
+        For a table of ngspice vector columns: the file columns each complex column was built from
+        (``("vm(dut)", "vp(dut)")``); empty otherwise.
+    warnings : tuple of str
+        Decisions the user should know about (phase unit taken from the values).
     """
 
     layout: str
@@ -65,6 +83,8 @@ class ComplexTable:
     columns: tuple[np.ndarray, ...]
     lines: tuple[int, ...]
     notes: tuple[str, ...]
+    sources: tuple[tuple[str, ...], ...] = ()
+    warnings: tuple[str, ...] = ()
 
 
 def parse_complex_cell(cell: str) -> tuple[complex, str] | None:
@@ -218,3 +238,105 @@ def find_simulator_table(text: str, where: str) -> ComplexTable | None:
     """The complex table of a simulator export (see the module docstring), or None for other text."""
     lines = text.splitlines()
     return _print_table(lines, where) or _tab_table(lines, where)
+
+
+_PART_WORDS = {"m": "magnitude", "p": "phase", "r": "real part", "i": "imaginary part", "db": "dB magnitude"}
+
+
+def _phase_unit(table: TextTable, phases: dict[int, str], where: str) -> tuple[dict[int, float], list[str]]:
+    """Factor to rad per phase column; the unit of the unit-less ones is decided from all their values."""
+    factors = {k: (np.pi / 180 if unit == "deg" else 1.0) for k, unit in phases.items() if unit}
+    bare = [k for k, unit in phases.items() if not unit]
+    if not bare:
+        return factors, []
+    values = np.concatenate([numeric_column(table, k, where) for k in bare])
+    values = values[np.isfinite(values)]
+    radians = bool(np.all(np.abs(values) <= np.pi + 1e-9))
+    names = ", ".join(repr(table.headers[k]) for k in bare)
+    factors.update({k: 1.0 if radians else np.pi / 180 for k in bare})
+    if radians:
+        words = (f"phase column(s) {names} state no unit; every value lies within [-pi, pi], so they are "
+                 f"read as radians (ngspice's default); if they are degrees, write the unit in the header, "
+                 f"e.g. "
+                 f"'{table.headers[bare[0]]} (deg)'")
+    else:
+        words = (f"phase column(s) {names} state no unit; some value lies outside [-pi, pi], so they are "
+                 f"read as degrees (ngspice with set units=degrees); if they are radians, write the unit "
+                 f"in the header, e.g. '{table.headers[bare[0]]} (rad)'")
+    return factors, [words]
+
+
+def vector_table(table: TextTable, where: str) -> ComplexTable | None:
+    """Join real columns named after ngspice vectors into complex columns (module docstring); else None.
+
+    None unless the first column reads as frequency and every other column (repeats of the frequency column
+    aside, as ``wrdata`` writes without ``wr_singlescale``) is an ngspice vector name.
+
+    Raises
+    ------
+    InputError
+        A repeated frequency column that differs, a bare ``v(x)`` not followed by its twin, or a vector
+        with a part missing (a magnitude with no phase).
+    """
+    headers = list(table.headers)
+    if len(headers) < 2 or parse_header(headers[0], 0).kind != "frequency":
+        return None
+    names = [parse_vector_name(h) for h in headers]
+    scale = [k for k, h in enumerate(headers) if k and h.strip().casefold() == headers[0].strip().casefold()]
+    if not any(names[1:]) or any(n is None for k, n in enumerate(names) if k and k not in scale):
+        return None
+    frequency = numeric_column(table, 0, where)
+    for k in scale:
+        if not np.array_equal(numeric_column(table, k, where), frequency, equal_nan=True):
+            raise InputError(f"{where}: column {k + 1} ({headers[k]!r}) repeats the frequency header but "
+                             f"holds other values; write one sweep per file")
+    parts: dict[str, dict[str, int]] = {}
+    k = 1
+    while k < len(headers):
+        name = names[k]
+        if k in scale or name is None:
+            k += 1
+            continue
+        if name.part == "pair":
+            if k + 1 >= len(headers) or names[k + 1] != name:
+                raise InputError(f"{where}: column {k + 1} ({headers[k]!r}) appears once; ngspice wrdata "
+                                 f"writes a complex vector as two columns of that name (real, imaginary)")
+            parts.setdefault(name.vector, {}).update(r=k, i=k + 1)
+            k += 2
+            continue
+        if name.part in parts.setdefault(name.vector, {}):
+            raise InputError(f"{where}: two columns hold the {_PART_WORDS[name.part]} of {name.vector} "
+                             f"({headers[parts[name.vector][name.part]]!r} and {headers[k]!r}); keep one")
+        parts[name.vector][name.part] = k
+        k += 1
+    phases = {p["p"]: names[p["p"]].phase_unit for p in parts.values() if "p" in p}
+    factors, warnings = _phase_unit(table, phases, where)
+    vectors, columns, sources = [], [], []
+    for vector, p in parts.items():
+        if "r" in p and "i" in p:
+            used = (p["r"], p["i"])
+            value = numeric_column(table, p["r"], where) + 1j * numeric_column(table, p["i"], where)
+        elif "p" in p and ("m" in p or "db" in p):
+            magnitude = (numeric_column(table, p["m"], where) if "m" in p
+                         else 10.0 ** (numeric_column(table, p["db"], where) / 20.0))
+            used = (p.get("m", p.get("db")), p["p"])
+            value = magnitude * np.exp(1j * numeric_column(table, p["p"], where) * factors[p["p"]])
+        else:
+            have = ", ".join(repr(headers[j]) for j in p.values())
+            raise InputError(f"{where}: vector {vector} has only {have}; impedance needs magnitude and phase "
+                             f"(e.g. vm/vp, mag()/ph()) or real and imaginary parts (vr/vi, real()/imag())")
+        vectors.append(vector)
+        columns.append(value)
+        sources.append(tuple(headers[j] for j in used))
+        if any(names[j].print_style for j in used):
+            warnings.append(f"columns {', '.join(repr(headers[j]) for j in used)} read with the SPICE .print "
+                            f"names (im = magnitude, ip = phase, ir/ii = real/imaginary part of the current "
+                            f"through the source); ngspice itself writes mag(i(...)), ph(i(...))")
+    joined = "; ".join(f"{v} from {', '.join(map(repr, s))}" for v, s in zip(vectors, sources, strict=True))
+    notes = [f"columns named after ngspice vectors, joined into complex vectors: {joined}"]
+    if scale:
+        notes.append(f"skipped {len(scale)} repeated frequency column(s)")
+    return ComplexTable(layout=f"{table.describe()}, ngspice vector columns", frequency_header=headers[0],
+                        headers=tuple(vectors), frequency=frequency, columns=tuple(columns),
+                        lines=table.lines, notes=(*table.notes, *notes), sources=tuple(sources),
+                        warnings=tuple(warnings))

@@ -32,7 +32,7 @@ from .complex_form import complex_to_impedance
 from .delimited import decode_bytes, numeric_column, split_table
 from .forms import AMPLITUDE_ROLES, build_impedance, convert_columns, unit_label
 from .headers import parse_header
-from .simulator import ComplexTable, find_simulator_table
+from .simulator import ComplexTable, find_simulator_table, vector_table
 
 __all__ = ["read_delimited"]
 
@@ -96,15 +96,13 @@ def _from_simulator(table: ComplexTable, column_map: dict[str, str], shunt: floa
     frequency = table.frequency * factor
     steps.append(f"frequency from {table.frequency_header!r}: in {info.unit_text or 'Hz (assumed)'}"
                  f"{f' (x {factor:g})' if factor != 1 else ''}")
-    z, columns, z_steps, warnings = complex_to_impedance(table, column_map, where)
+    z, columns, units, z_steps, warnings = complex_to_impedance(table, column_map, where, shunt)
     steps += z_steps
-    for option, value in (("--shunt", shunt), ("--reference", reference)):
-        if value is not None:
-            warnings.append(f"{option} {value:g} ignored: the file holds complex impedance or V and I")
+    warnings = [*table.warnings, *warnings]
+    if reference is not None:
+        warnings.append(f"--reference {reference:g} ignored: the file holds complex impedance or V and I")
     columns = {"frequency": table.frequency_header, **columns}
-    units = {"frequency": info.unit_text or "Hz (assumed)", **{r: {"z_complex": "ohm", "v_complex": "V",
-                                                                   "i_complex": "A"}[r] for r in columns
-                                                                if r != "frequency"}}
+    units = {"frequency": info.unit_text or "Hz (assumed)", **units}
     return frequency, z, lines, columns, units, steps, warnings
 
 
@@ -148,6 +146,9 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
     table = split_table(text, encoding, where, headerless=bool(column_map))
     if not table.rows:
         raise InputError(f"{where}: the table below the header has no rows")
+    vectors = vector_table(table, where)
+    if vectors is not None:
+        return _simulator_measurement(vectors, raw, path, column_map or {}, shunt, reference)
     plan = plan_columns(table.headers, column_map or {}, where)
     lines = np.asarray(table.lines)
     first, last = int(lines.min()), int(lines.max())
