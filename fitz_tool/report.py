@@ -171,6 +171,12 @@ def design_lines(design: DesignValues) -> list[str]:
     return lines
 
 
+#: One-line reminder closing the terminal report (the HTML report and README carry the full cautions).
+SAFETY_LINE = ("Safety: discharge capacitors before handling them; never clip a scope ground onto a "
+               "mains-referenced node; check shunt dissipation and instrument ratings; follow local codes "
+               "(README, Safety).")
+
+
 def format_fit_report(result: FitResult, selection: ModelSelection | None, design: DesignValues) -> str:
     """Terminal report: model, ranking (auto), parameters, fit quality, flags, design values, warnings."""
     prov = result.measurement.provenance
@@ -193,6 +199,7 @@ def format_fit_report(result: FitResult, selection: ModelSelection | None, desig
     lines += ["", "Design values:"] + design_lines(design)
     if prov.warnings:
         lines += ["", "Measurement warnings:"] + [f"  - {w}" for w in prov.warnings]
+    lines += ["", SAFETY_LINE]
     return "\n".join(lines) + "\n"
 
 

@@ -133,3 +133,9 @@ def test_profile_interval_travels_to_the_json_and_the_table():
     assert doc["parameters"][name]["stderr"] is None
     text = format_fit_report(result, None, design_values(result, []))
     assert "not determined: consistent with 0" in text
+
+
+def test_terminal_report_ends_with_the_safety_reminder():
+    result = synthetic_result()
+    text = format_fit_report(result, None, design_values(result, []))
+    assert text.rstrip().splitlines()[-1].startswith("Safety: discharge capacitors")
