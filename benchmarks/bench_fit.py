@@ -2,7 +2,7 @@
 
 Run ``python benchmarks/bench_fit.py`` (``--quick`` for a short run); not part of the test suite. Prints:
 
-1. median time of ``fitz_tool.fitting.fit`` (seeding included) on a 201-point, 4-parameter part, divided by
+1. median time of ``fitz_tool.fit`` (seeding included) on a 201-point, 4-parameter part, divided by
    the median time of a bare ``scipy.optimize.least_squares`` fit of the same residuals and exact Jacobian
    started at the true values (target <= 3);
 2. convergence over random parts (log-uniform values, resonance inside and up to a decade outside the
@@ -34,7 +34,7 @@ from scipy.optimize import least_squares
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from fitz_tool.circuit import Circuit  # noqa: E402
-from fitz_tool.fitting import _problem, fit  # noqa: E402
+from fitz_tool.fitting.least_squares import _problem, fit  # noqa: E402
 from fitz_tool.measurement import Measurement  # noqa: E402
 
 SIGMA = 0.01  # noise in ln|Z| and in phase (rad)

@@ -141,7 +141,7 @@ def _figure_bytes(figure, fmt: str) -> bytes:
 
 def _cmd_inspect(args) -> int:
     from .inspection import format_summary, summarize
-    from .outputs import write_outputs
+    from .outputs.atomic import write_outputs
 
     measurement, inputs = load_from_args(args)
     summary = summarize(measurement)
@@ -151,7 +151,7 @@ def _cmd_inspect(args) -> int:
 
         outputs[args.csv] = measurement_table(measurement).to_csv(index=False)
     if args.plot:
-        from .plots import plot_measurement
+        from .outputs.plots import plot_measurement
 
         outputs[args.plot] = _figure_bytes(plot_measurement(measurement), Path(args.plot).suffix[1:] or "png")
     write_outputs(outputs, inputs)
@@ -181,11 +181,11 @@ def _parse_bounds(items: Sequence[str]) -> dict[str, tuple[float, float]]:
 
 def _cmd_fit(args) -> int:
     from .derived import design_values
-    from .fitting import fit
-    from .outputs import write_outputs
+    from .fitting.least_squares import fit
+    from .fitting.selection import fit_auto
+    from .outputs.atomic import write_outputs
+    from .outputs.report import fit_to_json, format_fit_report, run_record
     from .presets import resolve_model
-    from .report import fit_to_json, format_fit_report, run_record
-    from .selection import fit_auto
 
     measurement, inputs = load_from_args(args)
     at = [parse_quantity(a, "Hz", "--at") for a in args.at]
@@ -205,16 +205,16 @@ def _cmd_fit(args) -> int:
     if args.json:
         outputs[args.json] = json.dumps(fit_to_json(result, selection, design, record), indent=2) + "\n"
     if args.curve:
-        from .report import curve_table
+        from .outputs.report import curve_table
 
         outputs[args.curve] = curve_table(result).to_csv(index=False)
     if args.spice:
-        from .spice import to_spice_subcircuit
+        from .outputs.spice import to_spice_subcircuit
 
         outputs[args.spice] = to_spice_subcircuit(result, name=args.subckt_name)
     figures = {}
     if args.plot_dir or args.report:
-        from .plots import fit_figures
+        from .outputs.plots import fit_figures
 
         figures = fit_figures(result, design)
     if args.plot_dir:
@@ -223,7 +223,7 @@ def _cmd_fit(args) -> int:
             for fmt in ("png", "svg"):
                 outputs[str(Path(args.plot_dir) / f"{stem}_{key}.{fmt}")] = _figure_bytes(figure, fmt)
     if args.report:
-        from .html_report import render_html_report
+        from .outputs.html_report import render_html_report
 
         outputs[args.report] = render_html_report(result, selection, design, record, figures)
     write_outputs(outputs, inputs)

@@ -23,7 +23,7 @@ from pathlib import Path
 import numpy as np
 import skrf
 
-from fitz_tool.outputs import write_outputs
+from fitz_tool.outputs.atomic import write_outputs
 
 HERE = Path(__file__).resolve().parent
 SEED = 4812

@@ -31,7 +31,7 @@ def _bench_csv(tmp_path, name="inductor_47u.csv", rel_noise=2e-3, phase_noise_de
 
 def _outputs(tmp_path):
     out = tmp_path / "out"
-    return out, ["--json", str(out / "fit.json"), "--report", str(out / "report.html"), "--spice",
+    return out, ["--json", str(out / "fitting.json"), "--report", str(out / "report.html"), "--spice",
                  str(out / "part.cir"), "--curve", str(out / "curve.csv"), "--plot-dir", str(out / "plots"),
                  "--at", "100k"]
 
@@ -43,7 +43,7 @@ def test_fit_writes_every_output_with_the_right_values(tmp_path, capsys):
     printed = capsys.readouterr().out
     assert "Model: Rs + L1 || Cp" in printed and "Design values" in printed
 
-    data = json.loads((out / "fit.json").read_text())
+    data = json.loads((out / "fitting.json").read_text())
     assert data["model"] == MODEL and data["fit"]["success"]
     for name, truth in TRUE.items():
         p = data["parameters"][name]
@@ -92,7 +92,7 @@ def test_an_output_over_the_input_is_refused_and_nothing_is_written(tmp_path, ca
     assert code == 5  # OutputError
     assert "overwrite an input" in capsys.readouterr().err
     assert csv.read_bytes() == original
-    assert not (out / "fit.json").exists() and not (out / "report.html").exists()
+    assert not (out / "fitting.json").exists() and not (out / "report.html").exists()
     assert not (out / "plots").exists() or not any((out / "plots").iterdir())
 
 

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from spice_sim import ac_analysis
 
-from fitz_tool.fitting import fit
+from fitz_tool.fitting.least_squares import fit
 from fitz_tool.measurement import Measurement
 
 SIGMA = 0.005  # noise in ln|Z| and in phase (rad)

@@ -10,9 +10,9 @@ import sympy
 
 from fitz_tool.circuit import Circuit
 from fitz_tool.exceptions import FitError, InputError
-from fitz_tool.fitting import FitProblem, _problem, fit
+from fitz_tool.fitting.least_squares import FitProblem, _problem, fit
+from fitz_tool.fitting.seeding import global_search, search_ranges
 from fitz_tool.measurement import Measurement
-from fitz_tool.seeding import global_search, search_ranges
 
 F = np.logspace(3, 8, 151)
 CHOKE = ("(Rs + L1 || Rcore) || Cp", {"Rs": 0.05, "L1": 22e-6, "Rcore": 20e3, "Cp": 8e-12})

@@ -9,7 +9,7 @@ import pytest
 import skrf
 
 from fitz_tool.corrections import Corrections, apply_corrections
-from fitz_tool.fitting import fit
+from fitz_tool.fitting.least_squares import fit
 from fitz_tool.readers.touchstone import read_touchstone
 
 FREQ = skrf.Frequency(1, 1000, 161, "MHz", sweep_type="log")

@@ -10,10 +10,10 @@ import pytest
 from test_derived import synthetic_result
 
 from fitz_tool.derived import design_values
-from fitz_tool.html_report import render_html_report
 from fitz_tool.measurement import Provenance
-from fitz_tool.plots import fit_figures
-from fitz_tool.report import run_record
+from fitz_tool.outputs.html_report import render_html_report
+from fitz_tool.outputs.plots import fit_figures
+from fitz_tool.outputs.report import run_record
 
 HOSTILE = "<script>alert(1)</script>.csv"
 

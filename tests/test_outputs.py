@@ -3,7 +3,7 @@
 import pytest
 
 from fitz_tool.exceptions import OutputError
-from fitz_tool.outputs import write_outputs
+from fitz_tool.outputs.atomic import write_outputs
 
 
 def test_outputs_land_in_new_folders(tmp_path):

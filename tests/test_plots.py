@@ -10,7 +10,7 @@ from matplotlib.figure import Figure
 from test_derived import synthetic_result
 
 from fitz_tool.derived import design_values
-from fitz_tool.plots import PALETTE, fit_figures, plot_measurement
+from fitz_tool.outputs.plots import PALETTE, fit_figures, plot_measurement
 
 # Okabe & Ito (2008) colour-blind-safe palette, hex values from memory
 OKABE_ITO = {"#000000", "#E69F00", "#56B4E9", "#009E73", "#F0E442", "#0072B2", "#D55E00", "#CC79A7"}

@@ -13,9 +13,9 @@ from spice_sim import ac_analysis
 from fitz_tool.circuit import Circuit
 from fitz_tool.derived import design_values
 from fitz_tool.exceptions import InputError
-from fitz_tool.fitting import fit
+from fitz_tool.fitting.least_squares import fit
+from fitz_tool.fitting.selection import is_adequate
 from fitz_tool.measurement import Measurement
-from fitz_tool.selection import is_adequate
 
 CHOKE = ("(Rs + L1 || Rcore) || Cp", {"Rs": 0.05, "L1": 22e-6, "Rcore": 20e3, "Cp": 8e-12})
 

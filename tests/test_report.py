@@ -15,7 +15,13 @@ import pytest
 from test_derived import synthetic_result
 
 from fitz_tool.derived import design_values
-from fitz_tool.report import curve_table, fit_to_json, format_fit_report, format_value, run_record
+from fitz_tool.outputs.report import (
+    curve_table,
+    fit_to_json,
+    format_fit_report,
+    format_value,
+    run_record,
+)
 from fitz_tool.results import ModelSelection, RankedModel
 
 

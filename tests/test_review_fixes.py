@@ -3,7 +3,7 @@
 import numpy as np
 
 from fitz_tool.derived import design_values
-from fitz_tool.fitting import fit
+from fitz_tool.fitting.least_squares import fit
 from fitz_tool.measurement import Measurement
 from fitz_tool.units import format_quantity, format_to_resolution
 

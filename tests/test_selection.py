@@ -5,8 +5,8 @@ import pytest
 from spice_sim import ac_analysis
 
 from fitz_tool.exceptions import ModelSyntaxError
+from fitz_tool.fitting.selection import BIC_MARGIN, fit_auto, is_adequate
 from fitz_tool.measurement import Measurement
-from fitz_tool.selection import BIC_MARGIN, fit_auto, is_adequate
 
 SIGMA = 0.005
 

@@ -13,8 +13,8 @@ from test_derived import synthetic_result
 
 from fitz_tool.circuit import Circuit
 from fitz_tool.exceptions import OutputError
+from fitz_tool.outputs.spice import CPE_TOLERANCE, cpe_network, to_spice_subcircuit
 from fitz_tool.presets import PRESETS
-from fitz_tool.spice import CPE_TOLERANCE, cpe_network, to_spice_subcircuit
 
 SWEEP = np.geomspace(1e3, 100e6, 41)
 

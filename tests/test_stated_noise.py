@@ -42,7 +42,7 @@ def test_a_right_model_with_the_true_noise_level_gives_chi_square_near_its_degre
 
 
 def test_a_wrong_model_under_stated_noise_shows_a_large_reduced_chi_square(tmp_path, capsys):
-    out = tmp_path / "fit.json"
+    out = tmp_path / "fitting.json"
     assert main(["fit", str(_bench_file(tmp_path, 9)), "--model", "Rs + C1",
                  "--noise", "0.3%:0.15deg", "--json", str(out)]) == 0
     assert json.loads(out.read_text())["fit"]["reduced_chi_square"] > 100

@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 from fitz_tool.circuit import Circuit
-from fitz_tool.fitting import fit
+from fitz_tool.fitting.least_squares import fit
 from fitz_tool.measurement import Measurement
 
 # An output choke of 47 uH with 0.12 ohm winding resistance, 50 kohm core loss and 4.7 pF between turns.

@@ -7,7 +7,7 @@ import tempfile
 from collections.abc import Iterable, Mapping
 from pathlib import Path
 
-from .exceptions import OutputError
+from ..exceptions import OutputError
 
 __all__ = ["write_outputs"]
 

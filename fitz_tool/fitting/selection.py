@@ -20,12 +20,12 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 
-from .circuit import Circuit
-from .exceptions import FitError
-from .fitting import fit
-from .measurement import Measurement
-from .presets import default_candidates, resolve_model
-from .results import FitResult, ModelSelection, RankedModel
+from ..circuit import Circuit
+from ..exceptions import FitError
+from ..measurement import Measurement
+from ..presets import default_candidates, resolve_model
+from ..results import FitResult, ModelSelection, RankedModel
+from .least_squares import fit
 
 __all__ = ["fit_auto", "is_adequate", "BIC_MARGIN"]
 

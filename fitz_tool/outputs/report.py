@@ -17,9 +17,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .derived import DerivedValue, DesignValues
-from .results import FitResult, ModelSelection
-from .units import format_quantity, format_to_resolution
+from ..derived import DerivedValue, DesignValues
+from ..results import FitResult, ModelSelection
+from ..units import format_quantity, format_to_resolution
 
 __all__ = ["InputFile", "RunRecord", "run_record", "format_fit_report", "fit_to_json", "curve_table",
            "format_value", "format_derived_value"]

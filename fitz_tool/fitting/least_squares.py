@@ -23,12 +23,12 @@ from dataclasses import dataclass
 import lmfit
 import numpy as np
 
+from ..circuit import Circuit
+from ..exceptions import FitError, InputError
+from ..measurement import Measurement
+from ..presets import resolve_model
+from ..results import FitResult
 from .assessment import INTERVAL_MODES, assess, residual_structure
-from .circuit import Circuit
-from .exceptions import FitError, InputError
-from .measurement import Measurement
-from .presets import resolve_model
-from .results import FitResult
 from .seeding import data_seed, global_search, refine_by_scans, search_ranges
 
 __all__ = ["fit", "FitProblem", "BOUND_DECADES", "residual_structure"]

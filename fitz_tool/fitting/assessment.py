@@ -25,7 +25,9 @@ import lmfit
 import numpy as np
 from uncertainties import correlated_values, covariance_matrix
 
-from .measurement import Measurement
+from ..measurement import Measurement
+from ..results import FitResult, ParameterEstimate
+from ..units import format_quantity, format_to_resolution
 from .profile import (
     APPROXIMATE_LIMIT,
     SYMMETRY_LIMIT,
@@ -34,12 +36,10 @@ from .profile import (
     judge_interval,
     profile_interval,
 )
-from .results import FitResult, ParameterEstimate
-from .units import format_quantity, format_to_resolution
 
 if TYPE_CHECKING:
-    from .circuit import Circuit
-    from .fitting import FitProblem
+    from ..circuit import Circuit
+    from .least_squares import FitProblem
 
 __all__ = ["assess", "residual_structure", "weighting_description", "CORRELATION_LIMIT", "UNDETERMINED_LIMIT",
            "APPROXIMATE_LIMIT", "AT_BOUND_TOLERANCE", "SYMMETRY_LIMIT", "NEAR_BOUND_ERRORS", "INTERVAL_MODES"]

@@ -26,8 +26,8 @@ import numpy as np
 from scipy.optimize import least_squares
 from scipy.stats import qmc
 
-from .circuit import Circuit, Element, Node, Parallel
-from .measurement import Measurement
+from ..circuit import Circuit, Element, Node, Parallel
+from ..measurement import Measurement
 
 __all__ = ["Objective", "search_ranges", "data_seed", "refine_by_scans", "global_search"]
 

@@ -26,7 +26,7 @@ from typing import Protocol
 import numpy as np
 from scipy.optimize import brentq, least_squares
 
-from .units import format_quantity, format_to_resolution
+from ..units import format_quantity, format_to_resolution
 
 __all__ = ["Profiled", "ProfileInterval", "profile_interval", "interval_in_si", "judge_interval",
            "DEFAULT_STEP", "SYMMETRY_LIMIT", "UNDETERMINED_LIMIT", "APPROXIMATE_LIMIT"]

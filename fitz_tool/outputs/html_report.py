@@ -15,9 +15,9 @@ from html import escape
 
 import numpy as np
 
-from .derived import DesignValues
+from ..derived import DesignValues
+from ..results import FitResult, ModelSelection
 from .report import RunRecord, format_derived_value, format_value, parameter_rows, quality_rows
-from .results import FitResult, ModelSelection
 
 __all__ = ["render_html_report", "SAFETY_NOTES", "FIGURE_CAPTIONS"]
 

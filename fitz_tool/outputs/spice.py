@@ -29,9 +29,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import nnls
 
-from .circuit import Element, Node, Parallel, Series
-from .exceptions import OutputError
-from .results import FitResult
+from ..circuit import Element, Node, Parallel, Series
+from ..exceptions import OutputError
+from ..results import FitResult
 
 __all__ = ["CpeNetwork", "cpe_network", "to_spice_subcircuit", "CPE_TOLERANCE", "CELLS_PER_DECADE",
            "MARGIN_DECADES"]
@@ -229,7 +229,7 @@ def to_spice_subcircuit(result: FitResult, name: str = "FITTED_PART",
     writer = _Writer(result)
     writer.used.add(name.upper())
     writer.emit(result.circuit.tree, "1", "2")
-    from . import __version__
+    from .. import __version__
 
     when = (now or datetime.datetime.now(datetime.UTC)).astimezone(datetime.UTC)
     prov = result.measurement.provenance

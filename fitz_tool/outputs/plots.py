@@ -16,11 +16,11 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.ticker import EngFormatter, NullFormatter
 
-from .measurement import Measurement
-from .results import FitResult
+from ..measurement import Measurement
+from ..results import FitResult
 
 if TYPE_CHECKING:
-    from .derived import DesignValues
+    from ..derived import DesignValues
 
 __all__ = ["PALETTE", "plot_measurement", "fit_figures"]
 

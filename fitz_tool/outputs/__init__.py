@@ -1,0 +1,1 @@
+"""What the engineer reads and shares: terminal report, JSON, curve CSV, plots, HTML, SPICE, atomic writes."""
