@@ -34,7 +34,8 @@ from scipy.optimize import least_squares
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from fitz_tool.circuit import Circuit  # noqa: E402
-from fitz_tool.fitting.least_squares import _problem, fit  # noqa: E402
+from fitz_tool.fitting.least_squares import fit  # noqa: E402
+from fitz_tool.fitting.problem import problem_for  # noqa: E402
 from fitz_tool.measurement import Measurement  # noqa: E402
 
 SIGMA = 0.01  # noise in ln|Z| and in phase (rad)
@@ -59,7 +60,7 @@ def timing(repeats: int) -> tuple[float, float]:
     t_fit, t_bare = [], []
     for _ in range(repeats):
         m = noisy(circuit, f, truth, rng)
-        problem = _problem(circuit, m, circuit.parameter_names, {})
+        problem = problem_for(circuit, m, circuit.parameter_names, {})
         x_true = internal(circuit, truth)
         t0 = time.perf_counter()
         least_squares(problem.residual, x_true, jac=problem.jacobian)

@@ -10,7 +10,8 @@ import sympy
 
 from fitz_tool.circuit import Circuit
 from fitz_tool.exceptions import FitError, InputError
-from fitz_tool.fitting.least_squares import FitProblem, _problem, fit
+from fitz_tool.fitting.least_squares import fit
+from fitz_tool.fitting.problem import FitProblem, problem_for
 from fitz_tool.fitting.seeding import global_search, search_ranges
 from fitz_tool.measurement import Measurement
 
@@ -180,7 +181,7 @@ def test_global_search_finds_the_optimum_from_a_poor_start():
     expression, truth = CHOKE
     circuit = Circuit.parse(expression)
     m = bench(*CHOKE, sigma=0.001)
-    problem: FitProblem = _problem(circuit, m, circuit.parameter_names, {})
+    problem: FitProblem = problem_for(circuit, m, circuit.parameter_names, {})
     box = np.log10(np.array([search_ranges(circuit, m)[n] for n in circuit.parameter_names]))
     far = box[:, 1] - 0.1  # every parameter near the top of its box
     x = global_search(problem, box[:, 0], box[:, 1], box[:, 0] - 6, box[:, 1] + 6, starts=[far])
@@ -190,11 +191,11 @@ def test_global_search_finds_the_optimum_from_a_poor_start():
 def test_phase_residual_is_wrapped():
     circuit = Circuit.parse("R1")
     m = Measurement(np.array([1.0, 2.0]), np.exp(1j * np.radians([179.0, -179.0])))
-    problem = _problem(circuit, m, ("R1",), {})
+    problem = problem_for(circuit, m, ("R1",), {})
     # Z_model = 1 ohm at phase 0; measured phase +-179 deg: the wrapped residual is -+179 deg, never 181
     # (phase differences wrapped to (-180, 180]: common practice, no source).
     np.testing.assert_allclose(np.degrees(problem.residual(np.array([0.0]))[2:]), [-179.0, 179.0])
-    problem_neg = _problem(Circuit.parse("R1 + L1"), m, ("R1", "L1"), {})
+    problem_neg = problem_for(Circuit.parse("R1 + L1"), m, ("R1", "L1"), {})
     assert np.all(np.abs(problem_neg.residual(np.array([0.0, -3.0]))[2:]) <= np.pi)
 
 

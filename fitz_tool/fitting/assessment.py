@@ -39,7 +39,7 @@ from .profile import (
 
 if TYPE_CHECKING:
     from ..circuit import Circuit
-    from .least_squares import FitProblem
+    from .problem import FitProblem
 
 __all__ = ["assess", "residual_structure", "weighting_description", "CORRELATION_LIMIT", "UNDETERMINED_LIMIT",
            "APPROXIMATE_LIMIT", "AT_BOUND_TOLERANCE", "SYMMETRY_LIMIT", "NEAR_BOUND_ERRORS", "INTERVAL_MODES"]

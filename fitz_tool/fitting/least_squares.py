@@ -29,70 +29,15 @@ from ..measurement import Measurement
 from ..presets import resolve_model
 from ..results import FitResult
 from .assessment import INTERVAL_MODES, assess, residual_structure
+from .problem import FitProblem, problem_for
 from .seeding import data_seed, global_search, refine_by_scans, search_ranges
 
-__all__ = ["fit", "FitProblem", "BOUND_DECADES", "residual_structure"]
+__all__ = ["fit", "BOUND_DECADES"]
 
-_LN10 = float(np.log(10.0))
 #: Decades beyond the search box that the hard bounds of a log-scaled parameter allow.
 BOUND_DECADES = 6.0
 #: Bounds of a constant phase element's exponent.
 EXPONENT_BOUNDS = (1e-3, 1.0)
-
-
-@dataclass(frozen=True)
-class FitProblem:
-    """The weighted log-impedance residual of ``circuit`` against a measurement, in internal coordinates.
-
-    ``x[i]`` is log10 of parameter ``free[i]`` in SI units, or the value itself where ``exponent[i]``.
-    """
-
-    circuit: Circuit
-    frequency: np.ndarray
-    impedance: np.ndarray
-    weight_lnmag: np.ndarray
-    weight_phase: np.ndarray
-    free: tuple[str, ...]
-    exponent: np.ndarray
-    fixed: Mapping[str, float]
-
-    def values(self, x: np.ndarray) -> dict[str, float | np.ndarray]:
-        """SI values of all parameters; ``x`` may be (k,) or, for batches, (K, k) (values then (K, 1))."""
-        x = np.asarray(x, dtype=float)
-        values: dict[str, float | np.ndarray] = dict(self.fixed)
-        for i, name in enumerate(self.free):
-            xi = x[..., i] if x.ndim == 1 else x[:, i : i + 1]
-            values[name] = xi if self.exponent[i] else 10.0**xi
-        return values
-
-    def _weighted(self, z_model: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        ratio = z_model / self.impedance
-        return np.log(np.abs(ratio)) * self.weight_lnmag, np.angle(ratio) * self.weight_phase
-
-    def residual(self, x: np.ndarray) -> np.ndarray:
-        """Stacked weighted residual [ln|Zm/Z| / sigma_lnmag, angle(Zm/Z) / sigma_phase] (length 2M)."""
-        with np.errstate(all="ignore"):
-            re, im = self._weighted(self.circuit.impedance(self.frequency, self.values(x)))
-        return np.nan_to_num(np.concatenate([re, im]), nan=1e6, posinf=1e6, neginf=-1e6)
-
-    def jacobian(self, x: np.ndarray) -> np.ndarray:
-        """Exact Jacobian of :meth:`residual` with respect to the internal coordinates, shape (2M, k)."""
-        values = self.values(x)
-        with np.errstate(all="ignore"):
-            z, grads = self.circuit.impedance_gradient(self.frequency, values)
-            columns = []
-            for i, name in enumerate(self.free):
-                g = grads[name] / z * (1.0 if self.exponent[i] else _LN10 * values[name])
-                columns.append(np.concatenate([g.real * self.weight_lnmag, g.imag * self.weight_phase]))
-        return np.nan_to_num(np.column_stack(columns))
-
-    def batch_cost(self, points: np.ndarray) -> np.ndarray:
-        """Sum of squared residuals for each row of ``points`` (K, k), evaluated at once (inf if invalid)."""
-        with np.errstate(all="ignore"):
-            z = self.circuit.impedance(self.frequency, self.values(np.atleast_2d(points)))
-            re, im = self._weighted(np.atleast_2d(z))
-            cost = np.sum(re**2 + im**2, axis=-1)
-        return np.where(np.isfinite(cost), cost, np.inf)
 
 
 def _check_names(circuit: Circuit, given: Mapping, what: str) -> None:
@@ -173,17 +118,6 @@ def _local_fit(problem: FitProblem, x0: np.ndarray, b_lo: np.ndarray, b_hi: np.n
     return trial if trial.chisqr <= out.chisqr or not out.success else out
 
 
-def _problem(circuit: Circuit, m: Measurement, free: tuple[str, ...],
-             fixed: Mapping[str, float]) -> FitProblem:
-    ones = np.ones(len(m))
-    return FitProblem(
-        circuit=circuit, frequency=m.frequency, impedance=m.impedance,
-        weight_lnmag=ones if m.sigma_lnmag is None else 1.0 / m.sigma_lnmag,
-        weight_phase=ones if m.sigma_phase is None else 1.0 / m.sigma_phase,
-        free=free, exponent=np.array([circuit.parameter_is_exponent(n) for n in free], dtype=bool),
-        fixed=dict(fixed))
-
-
 def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, float] | None = None,
         guesses: Mapping[str, float] | None = None,
         bounds: Mapping[str, tuple[float, float]] | None = None, intervals: str = "flagged") -> FitResult:
@@ -237,7 +171,7 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
                        f"point{'s' if n_points != 1 else ''} give only {2 * n_points} residuals: "
                        "use a simpler model, fix parameters or measure more points")
 
-    problem = _problem(circuit, measurement, free, fixed)
+    problem = problem_for(circuit, measurement, free, fixed)
     lo, hi, b_lo, b_hi = _boxes(circuit, measurement, free, bounds)
     seed = data_seed(circuit, measurement)
     seed.update({k: float(v) for k, v in guesses.items()})
