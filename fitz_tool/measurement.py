@@ -40,6 +40,10 @@ class Provenance:
         Every conversion or correction applied, in words, in order.
     warnings : tuple of str
         Everything the user should know (rows dropped, assumptions made), in words.
+    ignored_columns : tuple of str
+        Headers of the file's columns that no role used (text, status, timestamps, extra readings).
+    description : str
+        What was read, in plain words (``"voltage across the part and across a 0.1 ohm shunt"``).
     """
 
     source: str = ""
@@ -49,6 +53,8 @@ class Provenance:
     units: dict[str, str] = field(default_factory=dict)
     steps: tuple[str, ...] = ()
     warnings: tuple[str, ...] = ()
+    ignored_columns: tuple[str, ...] = ()
+    description: str = ""
 
     def with_step(self, step: str, warning: str | None = None) -> Provenance:
         """Return a copy with one more step (and optionally one more warning) recorded."""

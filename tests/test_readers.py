@@ -167,7 +167,7 @@ def test_provenance_records_file_hash_and_never_touches_the_input(tmp_path):
     assert path.read_bytes() == before
     assert m.provenance.source == str(path)
     assert m.provenance.sha256 == hashlib.sha256(before).hexdigest()
-    assert any("'Temperature (°C)'" in s and "not used" in s for s in m.provenance.steps)
+    assert any("'Temperature (°C)'" in s and "ignored column" in s for s in m.provenance.steps)
 
 
 def test_touchstone_suffixes_go_to_the_touchstone_reader(tmp_path, monkeypatch):

@@ -243,8 +243,4 @@ def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: s
     if len(complete) > 1:
         steps.append(f"the file also holds the form(s) {', '.join(complete[1:])}; used {form}")
     columns = {role: candidates[role][0] for role in FORMS[form]}
-    used = {c.index for c in columns.values()}
-    unused = [repr(h) for k, h in enumerate(headers) if k not in used]
-    if unused:
-        steps.append(f"columns not used: {', '.join(unused)}")
     return ColumnPlan(form=form, columns=columns, steps=tuple(steps), warnings=tuple(warnings))

@@ -3,8 +3,11 @@
 Layout rules:
 
 * Encoding: UTF-8 with BOM, UTF-16 with BOM, UTF-8, else Latin-1 (which reads any byte, so it is last).
-* Delimiter: tab, semicolon, comma or runs of spaces, whichever splits the most lines into rows of numbers of
+* Delimiter: tab, semicolon, comma or runs of spaces, whichever splits the most lines into data rows of
   one width (ties in that order). Quoted cells follow the usual CSV rules.
+* Data rows: the lines with at least two numbers vote for the positions that hold numbers (a number in at
+  least half of them); a data row has a number or a missing cell at each of those positions and anything
+  elsewhere, so text columns (status, range, comment, timestamps) may stand beside the numbers.
 * The header is the line just above the first row of numbers (a table with no header, such as ngspice
   ``wrdata`` output, is read only when ``--map ROLE=#N`` names its columns); a line of units only
   (``Hz;Ohm;deg``) just above the numbers is joined to the header above it (``Frequency (Hz)``).
@@ -111,21 +114,51 @@ def _is_numeric(cell: str) -> bool:
 
 
 def _is_data(cells: list[str]) -> bool:
+    """A row of numbers only (or missing cells), at least two of them."""
     numbers = sum(1 for c in cells if _is_numeric(c))
     return numbers >= 2 and all(_is_numeric(c) or _MISSING.fullmatch(c) for c in cells)
 
 
-def _choose_delimiter(lines: list[str]) -> tuple[str, int]:
-    best, best_score = ",", 0
+def _numeric_positions(rows: list[list[str]]) -> frozenset[int]:
+    """Positions that hold a number in at least half of the rows (text columns are the others)."""
+    if not rows:
+        return frozenset()
+    width = max(len(r) for r in rows)
+    counts = [sum(1 for r in rows if p < len(r) and _is_numeric(r[p])) for p in range(width)]
+    return frozenset(p for p, n in enumerate(counts) if 2 * n >= len(rows))
+
+
+def _data_rule(lines: list[str], delimiter: str):
+    """The test a line's cells must pass to be a data row, with text columns allowed beside the numbers.
+
+    The lines with at least two numbers vote for the positions that hold numbers; a data row has a number
+    (or a missing cell) at every one of those positions and anything (text, dates, status words) elsewhere.
+    """
+    split = [_cells(line, delimiter) for line in lines]
+    mixed = [c for c in split if sum(1 for x in c if _is_numeric(x)) >= 2 and not c[0].startswith(_COMMENT)]
+    positions = _numeric_positions(mixed)
+    if len(positions) < 2:
+        return _is_data
+
+    def is_data(cells: list[str]) -> bool:
+        numbers = sum(1 for c in cells if _is_numeric(c))
+        return numbers >= 2 and all(p >= len(cells) or _is_numeric(cells[p]) or _MISSING.fullmatch(cells[p])
+                                    for p in positions)
+    return is_data
+
+
+def _choose_delimiter(lines: list[str]):
+    best, best_score, best_rule = ",", 0, _is_data
     for delimiter in _DELIMITERS:
-        widths = [len(c) for c in (_cells(line, delimiter) for line in lines) if _is_data(c)]
+        rule = _data_rule(lines, delimiter)
+        widths = [len(c) for c in (_cells(line, delimiter) for line in lines) if rule(c)]
         if not widths:
             continue
         width = max(set(widths), key=widths.count)
         score = widths.count(width)
         if score > best_score:
-            best, best_score = delimiter, score
-    return best, best_score
+            best, best_score, best_rule = delimiter, score, rule
+    return best, best_score, best_rule
 
 
 def _decimal(rows: list[list[str]], delimiter: str, where: str) -> str:
@@ -180,11 +213,11 @@ def split_table(text: str, encoding: str, where: str, headerless: bool = False) 
     ``headerless`` allows a table with no header line (columns then named ``#1`` ... ``#N``).
     """
     lines = text.splitlines()
-    delimiter, score = _choose_delimiter(lines)
+    delimiter, score, is_data = _choose_delimiter(lines)
     if score == 0:
         raise InputError(f"{where}: no table of numbers found (expected rows of numbers separated by comma, "
                          f"semicolon, tab or spaces, below a header line)")
-    first = next(k for k, line in enumerate(lines) if _is_data(_cells(line, delimiter)))
+    first = next(k for k, line in enumerate(lines) if is_data(_cells(line, delimiter)))
     width = len(_cells(lines[first], delimiter))
     headers, header_index = _header(lines, first, delimiter, width, where, headerless)
     notes = []
@@ -235,10 +268,15 @@ def parse_number(cell: str, decimal: str = ".") -> float:
     raise ValueError(f"not a number: {cell!r}")
 
 
-def numeric_column(table: TextTable, index: int, where: str) -> np.ndarray:
-    """Column ``index`` as floats (NaN where missing); InputError naming line and column for other text."""
-    values = np.empty(len(table.rows))
+def numeric_column(table: TextTable, index: int, where: str, rows: np.ndarray | None = None) -> np.ndarray:
+    """Column ``index`` as floats (NaN where missing); InputError naming line and column for other text.
+
+    ``rows`` (bool per row) limits the reading to those rows; the others come back as NaN.
+    """
+    values = np.full(len(table.rows), np.nan)
     for k, row in enumerate(table.rows):
+        if rows is not None and not rows[k]:
+            continue
         try:
             values[k] = parse_number(row[index], table.decimal)
         except ValueError:

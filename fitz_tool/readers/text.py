@@ -33,6 +33,7 @@ from .delimited import decode_bytes, numeric_column, split_table
 from .forms import AMPLITUDE_ROLES, build_impedance, convert_columns, unit_label
 from .headers import parse_header
 from .simulator import ComplexTable, find_simulator_table, vector_table
+from .status import check_status
 
 __all__ = ["read_delimited"]
 
@@ -149,17 +150,24 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
     vectors = vector_table(table, where)
     if vectors is not None:
         return _simulator_measurement(vectors, raw, path, column_map or {}, shunt, reference)
-    plan = plan_columns(table.headers, column_map or {}, where)
+    column_map = dict(column_map or {})
+    status_header = column_map.pop("status", None)
+    plan = plan_columns(table.headers, column_map, where)
     lines = np.asarray(table.lines)
     first, last = int(lines.min()), int(lines.max())
     steps = [f"read {path.name}: {table.describe()}; header {list(table.headers)}; {len(lines)} data rows "
              f"(lines {first}-{last})", *table.notes, *plan.steps]
-    numbers = {role: numeric_column(table, info.index, where) for role, info in plan.columns.items()}
-    values, convert_steps, warnings = convert_columns(plan, numbers, where)
-    steps += convert_steps
-    warnings = [*plan.warnings, *warnings]
-
+    status = check_status(table, {info.index for info in plan.columns.values()}, status_header, where)
+    steps += status.steps
     keep = np.ones(lines.size, dtype=bool)
+    warnings = [*plan.warnings, *status.warnings]
+    _drop(keep, status.bad, f"marked as not valid in the status column {status.status_header!r}", lines,
+          warnings)
+    numbers = {role: numeric_column(table, info.index, where, keep) for role, info in plan.columns.items()}
+    values, convert_steps, convert_warnings = convert_columns(plan, numbers, where)
+    steps += convert_steps
+    warnings += convert_warnings
+
     missing = np.zeros(lines.size, dtype=bool)
     for array in values.values():
         missing |= ~np.isfinite(array)
@@ -192,6 +200,7 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
         units={role: unit_label(role, info) for role, info in plan.columns.items()},
         steps=tuple(steps),
         warnings=tuple(warnings),
+        ignored_columns=status.ignored,
     )
     return Measurement(frequency=frequency, impedance=z, provenance=provenance)
 
