@@ -116,7 +116,7 @@ def frequency_derivative(result: FitResult, frequency: np.ndarray | float) -> np
 
     Each element's impedance depends on w only through the products w L, w C and w^n Q, so
     ``w dZ/dw = sum_L L dZ/dL + sum_C C dZ/dC + sum_P n Q dZ/dQ`` (Euler's relation for these homogeneous
-    forms; common practice, no source).
+    forms; common practice, no source); each kind's weights come from the registry.
     """
     f = np.atleast_1d(np.asarray(frequency, dtype=float))
     values = result.values
@@ -129,11 +129,10 @@ def _euler_derivative(result: FitResult, f: np.ndarray, gradient: dict[str, np.n
     values = result.values
     total = np.zeros(f.shape, dtype=complex)
     for element in result.circuit.elements:
-        if element.kind in ("L", "C"):
-            total += values[element.name] * gradient[element.name]
-        elif element.kind == "P":
-            q_name = element.name + "_Q"
-            total += values[element.name + "_n"] * values[q_name] * gradient[q_name]
+        own = {spec.suffix: values[element.name + spec.suffix] for spec in element.record.parameters}
+        for suffix, weight in element.record.frequency_weights(own).items():
+            name = element.name + suffix
+            total += weight * values[name] * gradient[name]
     return total / f
 
 

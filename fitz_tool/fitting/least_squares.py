@@ -18,7 +18,7 @@ is judged and converted to SI in :mod:`fitz_tool.assessment`.
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import lmfit
 import numpy as np
@@ -36,8 +36,6 @@ __all__ = ["fit", "BOUND_DECADES"]
 
 #: Decades beyond the search box that the hard bounds of a log-scaled parameter allow.
 BOUND_DECADES = 6.0
-#: Bounds of a constant phase element's exponent.
-EXPONENT_BOUNDS = (1e-3, 1.0)
 
 
 def _check_names(circuit: Circuit, given: Mapping, what: str) -> None:
@@ -51,9 +49,11 @@ def _check_names(circuit: Circuit, given: Mapping, what: str) -> None:
 def _internal(circuit: Circuit, name: str, value: float, what: str) -> float:
     """SI value -> internal coordinate, refusing values outside the parameter's physical range."""
     value = float(value)
-    if circuit.parameter_is_exponent(name):
-        if not 0 < value <= 1:
-            raise InputError(f"{what} {name}={value:g}: a constant phase exponent must be in (0, 1]")
+    spec = circuit.parameter_spec(name)
+    if spec.exponent:
+        low, high = spec.bounds
+        if not low <= value <= high:
+            raise InputError(f"{what} {name}={value:g}: this exponent must be in [{low:g}, {high:g}]")
         return value
     if not (np.isfinite(value) and value > 0):
         raise InputError(f"{what} {name}={value:g}: must be a positive number in SI units")
@@ -66,9 +66,10 @@ def _boxes(circuit: Circuit, m: Measurement, free: tuple[str, ...],
     ranges = search_ranges(circuit, m)
     lo, hi, b_lo, b_hi = (np.empty(len(free)) for _ in range(4))
     for i, name in enumerate(free):
-        if circuit.parameter_is_exponent(name):
+        spec = circuit.parameter_spec(name)
+        if spec.exponent:
             lo[i], hi[i] = ranges[name]
-            b_lo[i], b_hi[i] = EXPONENT_BOUNDS
+            b_lo[i], b_hi[i] = spec.bounds
         else:
             lo[i], hi[i] = np.log10(ranges[name])
             b_lo[i], b_hi[i] = lo[i] - BOUND_DECADES, hi[i] + BOUND_DECADES
@@ -194,9 +195,10 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
             out, stage = trial, "after a global search (the seeded fit left structured residuals)"
         else:
             stage = "from the data-derived seed (a global search found nothing better)"
-    return assess(problem, measurement, out, (b_lo, b_hi), scale_covar, stage, intervals=intervals,
-                  user_bounded=frozenset(bounds),
-                  refit=lambda x: _local_fit(problem, x, b_lo, b_hi, scale_covar))
+    result = assess(problem, measurement, out, (b_lo, b_hi), scale_covar, stage, intervals=intervals,
+                    user_bounded=frozenset(bounds),
+                    refit=lambda x: _local_fit(problem, x, b_lo, b_hi, scale_covar))
+    return replace(result, flags=result.flags + circuit.notes) if circuit.notes else result
 
 
 def _vector(out: lmfit.minimizer.MinimizerResult) -> np.ndarray:

@@ -26,15 +26,13 @@ import numpy as np
 from scipy.optimize import least_squares
 from scipy.stats import qmc
 
-from ..circuit import Circuit, Element, Node, Parallel
+from ..circuit import Circuit, DataFeatures, Element, Node, Parallel
 from ..measurement import Measurement
 
-__all__ = ["Objective", "search_ranges", "data_seed", "refine_by_scans", "global_search"]
+__all__ = ["Objective", "search_ranges", "data_seed", "refine_by_scans", "global_search", "SEARCH_DECADES"]
 
 #: Decades beyond the data-derived scale that the search box spans on each side.
 SEARCH_DECADES = 3.0
-#: Range of a constant phase element's exponent searched (0 < n <= 1 is its definition).
-EXPONENT_RANGE = (0.3, 1.0)
 
 
 class Objective(Protocol):
@@ -47,26 +45,20 @@ class Objective(Protocol):
     def batch_cost(self, points: np.ndarray) -> np.ndarray: ...
 
 
-def _scales(m: Measurement) -> dict[str, tuple[float, float]]:
-    """Range of |Z| (ohm), |Z|/w (H) and 1/(w |Z|) (F) over the sweep."""
-    mag, w = np.abs(m.impedance), m.omega
-    return {"R": (mag.min(), mag.max()), "L": ((mag / w).min(), (mag / w).max()),
-            "C": ((1 / (w * mag)).min(), (1 / (w * mag)).max())}
+def _features(m: Measurement) -> DataFeatures:
+    return DataFeatures(m.omega, m.impedance)
 
 
 def search_ranges(circuit: Circuit, m: Measurement) -> dict[str, tuple[float, float]]:
-    """Data-derived search range (SI) of each parameter: the scale seen in the data, +/- SEARCH_DECADES."""
-    scales, widen = _scales(m), 10.0**SEARCH_DECADES
+    """Data-derived search range (SI) of each parameter: each kind's data scale, +/- SEARCH_DECADES
+    (exponents over their own range)."""
+    features, widen = _features(m), 10.0**SEARCH_DECADES
     ranges = {}
     for e in circuit.elements:
-        if e.kind == "P":
-            mag, w = np.abs(m.impedance), m.omega
-            q = np.concatenate([1 / (mag * w**n) for n in EXPONENT_RANGE])
-            ranges[e.name + "_Q"] = (q.min() / widen, q.max() * widen)
-            ranges[e.name + "_n"] = EXPONENT_RANGE
-        else:
-            low, high = scales[e.kind]
-            ranges[e.name] = (low / widen, high * widen)
+        scale = e.record.search_scale(features)
+        for spec in e.record.parameters:
+            low, high = scale[spec.suffix]
+            ranges[e.name + spec.suffix] = (low, high) if spec.exponent else (low / widen, high * widen)
     return ranges
 
 
@@ -81,72 +73,48 @@ def _roles(node: Node, inside_parallel: bool = False, parent: str = "root") -> d
     return roles
 
 
-def _power_law_exponent(m: Measurement, at_low_end: bool) -> float:
-    """-d ln|Z| / d ln w over the first (or last) fifth of the sweep, clipped to EXPONENT_RANGE."""
-    k = max(2, len(m) // 5)
-    sl = slice(0, k) if at_low_end else slice(-k, None)
-    slope = np.polyfit(np.log(m.omega[sl]), np.log(np.abs(m.impedance[sl])), 1)[0] if len(m) > 1 else -1.0
-    return float(np.clip(-slope, *EXPONENT_RANGE))
-
-
 def data_seed(circuit: Circuit, m: Measurement) -> dict[str, float]:
-    """Starting values (SI) read off the measurement for every parameter of ``circuit`` (rules above)."""
-    w, z = m.omega, m.impedance
-    x, mag = z.imag, np.abs(z)
+    """Starting values (SI) read off the measurement for every parameter of ``circuit``.
+
+    Each element's kind gives the rule (the registry's ``seed``), told whether the element sits in a shunt
+    position (a resistor directly in a parallel group; any other kind anywhere inside one) and how many
+    elements of its kind share that position; missing reactances are completed from a resonance.
+    """
+    features = _features(m)
     roles = _roles(circuit.tree)
-    positive_r = z.real[z.real > 0]
-    r_small = float(positive_r.min()) if positive_r.size else 1e-3 * mag.min()
-    r_large = float(positive_r.max()) if positive_r.size else mag.max()
-    inductive, capacitive = np.flatnonzero(x > 0), np.flatnonzero(x < 0)
-    by_kind: dict[tuple[str, bool], list[str]] = {}
+    by_position: dict[tuple[str, bool], list[Element]] = {}
     for e in circuit.elements:
         inside, parent = roles[e.name]
-        shunt = parent == "parallel" if e.kind == "R" else inside
-        by_kind.setdefault((e.kind, shunt), []).append(e.name)
-
+        shunt = parent == "parallel" if e.record.shunt_only_in_parallel else inside
+        by_position.setdefault((e.kind, shunt), []).append(e)
     seed: dict[str, float] = {}
-    for (kind, shunt), names in by_kind.items():
-        share = len(names)
-        if kind == "R":
-            value = r_large / share if shunt else r_small / share
-        elif kind == "L" and inductive.size:
-            i = inductive[0] if shunt else inductive[-1]
-            value = x[i] / w[i] / share
-        elif kind == "C" and capacitive.size:
-            i = capacitive[-1] if shunt else capacitive[0]
-            value = -share / (w[i] * x[i])
-        else:
-            value = np.nan  # completed below
-        for name in names:
-            if kind == "P":
-                n = _power_law_exponent(m, at_low_end=not shunt)
-                i = -1 if shunt else 0
-                seed[name + "_n"] = n
-                seed[name + "_Q"] = float(1 / (mag[i] * w[i] ** n))
-            else:
-                seed[name] = float(value)
+    for (_kind, shunt), elements in by_position.items():
+        for e in elements:
+            for suffix, value in e.record.seed(features, shunt, len(elements)).items():
+                seed[e.name + suffix] = float(value)
     _complete_reactances(seed, circuit, m)
     return seed
 
 
 def _complete_reactances(seed: dict[str, float], circuit: Circuit, m: Measurement) -> None:
-    """Fill missing L or C from a zero crossing of X (w0^2 = 1/(L C)), else put resonance beyond the sweep."""
+    """Fill a missing inductive or capacitive value from a zero crossing of X (w0^2 = 1/(L C)), else put the
+    resonance beyond the sweep, else take the middle of the kind's data scale."""
     w, x = m.omega, m.impedance.imag
     crossings = np.flatnonzero(np.sign(x[:-1]) != np.sign(x[1:]))
     w0 = float(np.sqrt(w[crossings[0]] * w[crossings[0] + 1])) if crossings.size else None
-    names = {k: [e.name for e in circuit.elements if e.kind == k] for k in "LC"}
-    known = {k: [seed[n] for n in names[k] if np.isfinite(seed[n])] for k in "LC"}
-    scales = _scales(m)
-    for kind, other in (("L", "C"), ("C", "L")):
-        for name in names[kind]:
-            if np.isfinite(seed[name]):
+    reactive = {s: [e for e in circuit.elements if e.record.reactance_sign == s] for s in (1, -1)}
+    known = {s: [seed[e.name] for e in reactive[s] if np.isfinite(seed[e.name])] for s in (1, -1)}
+    features = _features(m)
+    for sign in (1, -1):
+        for e in reactive[sign]:
+            if np.isfinite(seed[e.name]):
                 continue
-            if known[other]:
-                partner = float(np.median(known[other]))
-                wr = w0 if w0 is not None else (w[-1] * 10 if kind == "L" else w[0] / 10)
-                seed[name] = 1 / (wr**2 * partner)
+            if known[-sign]:
+                partner = float(np.median(known[-sign]))
+                wr = w0 if w0 is not None else (w[-1] * 10 if sign > 0 else w[0] / 10)
+                seed[e.name] = 1 / (wr**2 * partner)
             else:
-                seed[name] = float(np.sqrt(np.prod(scales[kind])))
+                seed[e.name] = float(np.sqrt(np.prod(e.record.search_scale(features)[""])))
 
 
 def refine_by_scans(objective: Objective, x0: np.ndarray, lower: np.ndarray, upper: np.ndarray,

@@ -33,8 +33,8 @@ from ..circuit import Element, Node, Parallel, Series
 from ..exceptions import OutputError
 from ..results import FitResult
 
-__all__ = ["CpeNetwork", "cpe_network", "to_spice_subcircuit", "CPE_TOLERANCE", "CELLS_PER_DECADE",
-           "MARGIN_DECADES"]
+__all__ = ["CpeNetwork", "cpe_network", "to_spice_subcircuit", "write_constant_phase", "CPE_TOLERANCE",
+           "CELLS_PER_DECADE", "MARGIN_DECADES"]
 
 CELLS_PER_DECADE = 8
 MARGIN_DECADES = 2.0
@@ -156,41 +156,10 @@ class _Writer:
             self.lines.append(f"{self.name(wanted)} {a} {b} {value:.15g}")
 
     def element(self, e: Element, a: str, b: str) -> None:
-        if e.kind in ("R", "L", "C"):
-            self.add(e.kind, e.name, a, b, self.values[e.name], e.name)
-            return
-        q, n = self.values[e.name + "_Q"], self.values[e.name + "_n"]
-        if n == 1.0:
-            self.add("C", f"C_{e.name}", a, b, q, f"{e.name}_Q")
-            self.notes.append(f"{e.name}: n = 1, written exactly as a capacitor C = Q")
-            return
-        if n == 0.0:
-            self.add("R", f"R_{e.name}", a, b, 1 / q, f"1/{e.name}_Q")
-            self.notes.append(f"{e.name}: n = 0, written exactly as a resistor R = 1/Q")
-            return
-        net = cpe_network(q, n, self.f_min, self.f_max)
-        if not net.max_relative_error <= CPE_TOLERANCE:
-            raise OutputError(f"constant phase element {e.name}: its SPICE network reaches only "
-                              f"{net.max_relative_error:.1e} relative error; export refused")
-        self.notes.append(
-            f"{e.name}: constant phase element (Q={q:.6g} S s^n, n={n:.6g}) approximated by a passive Foster "
-            f"network of {len(net.cells)} R-C cells; worst relative error {net.max_relative_error:.1e} from "
-            f"{self.f_min:.6g} Hz to {self.f_max:.6g} Hz (degrades outside this range)")
-        parts = [("cell", r, c) for r, c in net.cells]
-        if net.series_capacitance is not None:
-            parts.append(("C", 0.0, net.series_capacitance))
-        if net.series_resistance > 0:
-            parts.append(("R", net.series_resistance, 0.0))
-        ends = [a] + [self.node() for _ in parts[:-1]] + [b]
-        for k, (kind, r, c) in enumerate(parts):
-            x, y = ends[k], ends[k + 1]
-            if kind == "cell":
-                self.add("R", f"R_{e.name}_{k + 1}", x, y, r, e.name)
-                self.add("C", f"C_{e.name}_{k + 1}", x, y, c, e.name)
-            elif kind == "C":
-                self.add("C", f"C_{e.name}_0", x, y, c, e.name)
-            else:
-                self.add("R", f"R_{e.name}_inf", x, y, r, e.name)
+        if e.record.spice is None:
+            raise OutputError(f"{e.name}: a {e.record.description} has no SPICE form; export refused")
+        own = {spec.suffix: self.values[e.name + spec.suffix] for spec in e.record.parameters}
+        e.record.spice(self, e.name, own, a, b)
 
     def emit(self, node: Node, a: str, b: str) -> None:
         if isinstance(node, Element):
@@ -202,6 +171,42 @@ class _Writer:
         elif isinstance(node, Parallel):
             for child in node.children:
                 self.emit(child, a, b)
+
+
+def write_constant_phase(writer: _Writer, name: str, q: float, n: float, a: str, b: str) -> None:
+    """Write a constant phase element ``Z = 1/(Q (jw)^n)`` between nodes ``a`` and ``b``: exactly for n = 1
+    (a capacitor) and n = 0 (a resistor), else as the Foster network described in the module docstring."""
+    if n == 1.0:
+        writer.add("C", f"C_{name}", a, b, q, f"{name}_Q")
+        writer.notes.append(f"{name}: n = 1, written exactly as a capacitor C = Q")
+        return
+    if n == 0.0:
+        writer.add("R", f"R_{name}", a, b, 1 / q, f"1/{name}_Q")
+        writer.notes.append(f"{name}: n = 0, written exactly as a resistor R = 1/Q")
+        return
+    net = cpe_network(q, n, writer.f_min, writer.f_max)
+    if not net.max_relative_error <= CPE_TOLERANCE:
+        raise OutputError(f"constant phase element {name}: its SPICE network reaches only "
+                          f"{net.max_relative_error:.1e} relative error; export refused")
+    writer.notes.append(
+        f"{name}: constant phase element (Q={q:.6g} S s^n, n={n:.6g}) approximated by a passive Foster "
+        f"network of {len(net.cells)} R-C cells; worst relative error {net.max_relative_error:.1e} from "
+        f"{writer.f_min:.6g} Hz to {writer.f_max:.6g} Hz (degrades outside this range)")
+    parts = [("cell", r, c) for r, c in net.cells]
+    if net.series_capacitance is not None:
+        parts.append(("C", 0.0, net.series_capacitance))
+    if net.series_resistance > 0:
+        parts.append(("R", net.series_resistance, 0.0))
+    ends = [a] + [writer.node() for _ in parts[:-1]] + [b]
+    for k, (kind, r, c) in enumerate(parts):
+        x, y = ends[k], ends[k + 1]
+        if kind == "cell":
+            writer.add("R", f"R_{name}_{k + 1}", x, y, r, name)
+            writer.add("C", f"C_{name}_{k + 1}", x, y, c, name)
+        elif kind == "C":
+            writer.add("C", f"C_{name}_0", x, y, c, name)
+        else:
+            writer.add("R", f"R_{name}_inf", x, y, r, name)
 
 
 def to_spice_subcircuit(result: FitResult, name: str = "FITTED_PART",

@@ -1,4 +1,4 @@
-"""Circuit expressions: grammar, element kinds, the tree and its vectorized complex impedance.
+"""Circuit expressions: grammar, the tree and its vectorized complex impedance with exact gradient.
 
 Grammar (``||`` binds tighter than ``+``; parentheses group)::
 
@@ -7,20 +7,7 @@ Grammar (``||`` binds tighter than ``+``; parentheses group)::
     term     := NAME | "(" series ")"
     NAME     := kind letter followed by letters, digits or underscores
 
-Kinds (e^{+jwt} convention, common practice):
-
-=====  ======================  ==========================  ======================
-kind   element                 impedance                   parameters (SI)
-=====  ======================  ==========================  ======================
-R      resistor                R                           NAME [ohm]
-L      inductor                j w L                       NAME [H]
-C      capacitor               1 / (j w C)                 NAME [F]
-P      constant phase element  1 / (Q (j w)^n)             NAME_Q [S s^n], NAME_n [1]
-=====  ======================  ==========================  ======================
-
-The constant phase element is the published definition Z = 1/(Q (jw)^n), 0 < n <= 1; n = 1 is a capacitor
-C = Q, n = 0 a resistor 1/Q. Its prefix letter in fitz_tool is ``P`` (for power-law), e.g. ``P1`` with
-parameters ``P1_Q`` and ``P1_n``.
+Kinds and their impedances come from the registry in :mod:`fitz_tool.circuit.kinds`.
 """
 
 from __future__ import annotations
@@ -31,29 +18,30 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .exceptions import ModelSyntaxError
+from ..exceptions import ModelSyntaxError
+from .kinds import ELEMENT_KINDS, ElementKind
 
-__all__ = ["Element", "Series", "Parallel", "Circuit", "ELEMENT_KINDS", "parse_circuit"]
+__all__ = ["Element", "Series", "Parallel", "Node", "Circuit", "parse_circuit", "MAX_ELEMENTS", "MAX_DEPTH"]
 
-#: kind letter -> (description, parameter suffixes and units)
-ELEMENT_KINDS: dict[str, tuple[str, tuple[tuple[str, str], ...]]] = {
-    "R": ("resistor", (("", "ohm"),)),
-    "L": ("inductor", (("", "H"),)),
-    "C": ("capacitor", (("", "F"),)),
-    "P": ("constant phase element", (("_Q", "S s^n"), ("_n", ""))),
-}
+#: Most elements and deepest nesting of parentheses an expression may have (bounds the work of a fit).
+MAX_ELEMENTS = 40
+MAX_DEPTH = 20
 
 
 @dataclass(frozen=True)
 class Element:
-    """One two-terminal element; ``kind`` is a key of ``ELEMENT_KINDS``."""
+    """One two-terminal element; ``kind`` is a letter of the kind registry (``ELEMENT_KINDS``)."""
 
     name: str
     kind: str
 
     @property
+    def record(self) -> ElementKind:
+        return ELEMENT_KINDS[self.kind]
+
+    @property
     def parameters(self) -> tuple[str, ...]:
-        return tuple(self.name + suffix for suffix, _ in ELEMENT_KINDS[self.kind][1])
+        return tuple(self.name + spec.suffix for spec in self.record.parameters)
 
 
 @dataclass(frozen=True)
@@ -81,7 +69,8 @@ def _tokenize(expression: str) -> list[tuple[str, str, int]]:
         if m.group("bad") is not None:
             column = m.start("bad") + 1
             char = m.group("bad")
-            hint = " (use || for parallel)" if char == "|" else ""
+            hint = {"|": " (use || for parallel)", "-": " (use + for series)",
+                    "/": " (use || for parallel)"}.get(char, "")
             raise ModelSyntaxError(f"unexpected character {char!r}{hint}", expression, column)
         if m.group("name") is not None:
             tokens.append(("name", m.group("name"), m.start("name") + 1))
@@ -95,11 +84,20 @@ class _Parser:
         self.expression = expression
         self.tokens = _tokenize(expression)
         self.pos = 0
+        self.depth = 0
+        names = sum(1 for kind, _, _ in self.tokens if kind == "name")
+        if names > MAX_ELEMENTS:
+            raise ModelSyntaxError(f"{names} elements: at most {MAX_ELEMENTS} are supported; use a simpler "
+                                   "model", self._short(expression), 1)
+
+    @staticmethod
+    def _short(expression: str) -> str:
+        return expression if len(expression) <= 120 else expression[:117] + "..."
 
     def error(self, message: str, column: int | None = None):
         if column is None:
             column = self.tokens[self.pos][2] if self.pos < len(self.tokens) else len(self.expression) + 1
-        raise ModelSyntaxError(message, self.expression, column)
+        raise ModelSyntaxError(message, self._short(self.expression), column)
 
     def peek(self) -> str | None:
         return self.tokens[self.pos][1] if self.pos < len(self.tokens) else None
@@ -126,12 +124,17 @@ class _Parser:
             self.pos += 1
             letter = text[0]
             if letter not in ELEMENT_KINDS:
-                known = ", ".join(f"{k} ({v[0]})" for k, v in ELEMENT_KINDS.items())
+                known = ", ".join(f"{k} ({v.description})" for k, v in ELEMENT_KINDS.items())
                 self.error(f"unknown element kind {letter!r} in {text!r}; names start with {known}", column)
             return Element(text, letter)
         if text == "(":
             self.pos += 1
+            self.depth += 1
+            if self.depth > MAX_DEPTH:
+                self.error(f"parentheses nested deeper than {MAX_DEPTH} levels; flatten the expression",
+                           column)
             node = self.series()
+            self.depth -= 1
             if self.peek() != ")":
                 self.error(f"missing ')' for the '(' opened at column {column}")
             self.pos += 1
@@ -174,20 +177,10 @@ def _element_impedance(element: Element, omega: np.ndarray, values: Mapping[str,
     Values may be floats or arrays that broadcast against ``omega`` (e.g. shape (K, 1) against (M,) to
     evaluate K parameter sets at once).
     """
-    jw = 1j * omega
-    if element.kind == "R":
-        r = values[element.name]
-        ones = np.ones_like(jw) * np.ones_like(r)  # broadcasts when values are arrays (batch evaluation)
-        return r * ones, {element.name: ones}
-    if element.kind == "L":
-        return jw * values[element.name], {element.name: jw}
-    if element.kind == "C":
-        c = values[element.name]
-        z = 1.0 / (jw * c)
-        return z, {element.name: -z / c}
-    q, n = values[element.name + "_Q"], values[element.name + "_n"]
-    z = 1.0 / (q * jw**n)
-    return z, {element.name + "_Q": -z / q, element.name + "_n": -z * np.log(jw)}
+    record = element.record
+    own = {spec.suffix: values[element.name + spec.suffix] for spec in record.parameters}
+    z, grads = record.impedance(1j * omega, own)
+    return z, {element.name + suffix: g for suffix, g in grads.items()}
 
 
 def _evaluate(node: Node, omega: np.ndarray, values: Mapping[str, float]):
@@ -240,13 +233,14 @@ class Circuit:
     def parameter_names(self) -> tuple[str, ...]:
         return tuple(p for e in self.elements for p in e.parameters)
 
+    def parameter_spec(self, name: str):
+        """The registry's ParameterSpec of a parameter (raises KeyError for an unknown name)."""
+        e = self.parameter_element(name)
+        return next(spec for spec in e.record.parameters if e.name + spec.suffix == name)
+
     def parameter_unit(self, name: str) -> str:
         """SI unit of a parameter (``"ohm"``, ``"H"``, ``"F"``, ``"S s^n"`` or ``""``)."""
-        for e in self.elements:
-            for (_suffix, unit), pname in zip(ELEMENT_KINDS[e.kind][1], e.parameters, strict=True):
-                if pname == name:
-                    return unit
-        raise KeyError(name)
+        return self.parameter_spec(name).unit
 
     def parameter_element(self, name: str) -> Element:
         """The element a parameter belongs to (raises KeyError for an unknown name)."""
@@ -256,9 +250,18 @@ class Circuit:
         raise KeyError(name)
 
     def parameter_is_exponent(self, name: str) -> bool:
-        """True for a constant phase element's exponent ``NAME_n`` (dimensionless, 0 < n <= 1)."""
-        e = self.parameter_element(name)
-        return e.kind == "P" and name == e.name + "_n"
+        """True for a dimensionless exponent (e.g. a constant phase element's ``NAME_n``), fitted linearly."""
+        return self.parameter_spec(name).exponent
+
+    @property
+    def notes(self) -> tuple[str, ...]:
+        """Readings of element names that may surprise (e.g. ``CPE1`` is a capacitor: it starts with C)."""
+        out = []
+        for e in self.elements:
+            if e.name.upper().startswith("CPE") and e.kind == "C":
+                out.append(f"{e.name} is read as a capacitor (its name starts with C); a constant phase "
+                           "element's name starts with P")
+        return tuple(out)
 
     def impedance(self, frequency: np.ndarray, values: Mapping[str, float]) -> np.ndarray:
         """Complex impedance in ohm at ``frequency`` (Hz) for parameter ``values`` (SI)."""
