@@ -37,6 +37,13 @@ _EXPORTS: dict[str, str] = {
     "ModelSelection": "results",
     # what the engineer reads and shares
     "design_values": "derived",
+    # uncertainty budget (GUM)
+    "BudgetInputs": "budget",
+    "AccuracyTable": "budget",
+    "read_accuracy_table": "budget",
+    "uncertainty_budget": "budget",
+    "Budget": "budget",
+    "BudgetEntry": "budget",
     "format_fit_report": "outputs.report",
     "fit_to_json": "outputs.report",
     "curve_table": "outputs.report",

@@ -91,6 +91,67 @@ def _noise(text: str) -> tuple[float, float]:
     return relative, phase
 
 
+def _percent(text: str, option: str) -> float:
+    """``"1%"`` or ``"1"`` (percent) -> 0.01."""
+    value = parse_quantity(text.strip().removesuffix("%"), "", option) / 100
+    if not (math.isfinite(value) and value >= 0):
+        raise InputError(f"{option} {text!r}: give a tolerance in percent >= 0, e.g. 1%")
+    return value
+
+
+def _add_budget_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group(
+        "accuracy (uncertainty budget, GUM)",
+        "stated +/- limits of the bench, each a systematic offset common to the whole sweep (rectangular, "
+        "u = a/sqrt 3); combined with the noise into u_c and U = k u_c")
+    group.add_argument("--accuracy", metavar="MAG%:PHASEdeg",
+                       help="accuracy of the measured |Z| and phase, e.g. 0.5%%:0.1deg")
+    group.add_argument("--accuracy-table", metavar="FILE",
+                       help="accuracy over frequency: columns frequency, |Z| limit %%, phase limit deg "
+                            "(interpolated in log frequency)")
+    group.add_argument("--shunt-tolerance", metavar="PCT", help="tolerance of the --shunt resistor, e.g. 1%%")
+    group.add_argument("--reference-tolerance", metavar="PCT", help="tolerance of the --reference resistor")
+    group.add_argument("--skew-uncertainty", metavar="SECONDS",
+                       help="+/- limit of the channel skew (with or without --skew), e.g. 1n")
+    group.add_argument("--load-tolerance", metavar="PCT", help="tolerance of the --load-value standard")
+    group.add_argument("--budget-mc", type=int, default=0, metavar="N",
+                       help="check the budget by a Monte Carlo propagation with N draws (JCGM 101)")
+
+
+def budget_inputs_from_args(args):
+    """The stated limits of the budget options (``BudgetInputs``), checked against the reading options."""
+    from .budget import BudgetInputs, read_accuracy_table
+
+    for option, needs, what in (("shunt_tolerance", "shunt", "--shunt OHMS"),
+                                ("reference_tolerance", "reference", "--reference OHMS"),
+                                ("load_tolerance", "load_value", "--load-value OHMS")):
+        if getattr(args, option) and not getattr(args, needs):
+            raise InputError(f"--{option.replace('_', '-')} needs {what} (the value it is the tolerance of)")
+    if args.accuracy and args.accuracy_table:
+        raise InputError("--accuracy and --accuracy-table: give one of them")
+    magnitude = phase = None
+    if args.accuracy:
+        if ":" not in args.accuracy:
+            raise InputError(f"--accuracy {args.accuracy!r}: expected MAG%:PHASEdeg, e.g. 0.5%:0.1deg")
+        mag_text, phase_text = (part.strip() for part in args.accuracy.split(":", 1))
+        magnitude = _percent(mag_text, "--accuracy |Z| part")
+        phase = math.radians(parse_quantity(phase_text.removesuffix("deg").removesuffix("\u00b0"), "",
+                                            "--accuracy phase part"))
+        if phase < 0:
+            raise InputError(f"--accuracy {args.accuracy!r}: the phase limit must be >= 0")
+    if args.budget_mc < 0:
+        raise InputError(f"--budget-mc {args.budget_mc}: give a number of draws >= 0")
+    return BudgetInputs(
+        magnitude_accuracy=magnitude, phase_accuracy=phase,
+        accuracy_table=read_accuracy_table(args.accuracy_table) if args.accuracy_table else None,
+        shunt_tolerance=_percent(args.shunt_tolerance, "--shunt-tolerance") if args.shunt_tolerance else None,
+        reference_tolerance=(_percent(args.reference_tolerance, "--reference-tolerance")
+                             if args.reference_tolerance else None),
+        load_tolerance=_percent(args.load_tolerance, "--load-tolerance") if args.load_tolerance else None,
+        skew_uncertainty=(parse_quantity(args.skew_uncertainty, "s", "--skew-uncertainty")
+                          if args.skew_uncertainty else None))
+
+
 def load_from_args(args):
     """Read the bench file and apply corrections as the options say; returns (Measurement, input paths)."""
     from .corrections import Corrections, apply_corrections
@@ -180,6 +241,7 @@ def _parse_bounds(items: Sequence[str]) -> dict[str, tuple[float, float]]:
 
 
 def _cmd_fit(args) -> int:
+    from .budget import uncertainty_budget
     from .derived import design_values
     from .fitting.least_squares import fit
     from .fitting.selection import fit_auto
@@ -187,7 +249,10 @@ def _cmd_fit(args) -> int:
     from .outputs.report import fit_to_json, format_fit_report, run_record
     from .presets import resolve_model
 
+    limits = budget_inputs_from_args(args)
     measurement, inputs = load_from_args(args)
+    if args.accuracy_table:
+        inputs.append(args.accuracy_table)
     at = [parse_quantity(a, "Hz", "--at") for a in args.at]
     constraints = dict(fixed=_parse_named_values(args.fix, "--fix"),
                        guesses=_parse_named_values(args.guess, "--guess"),
@@ -199,11 +264,13 @@ def _cmd_fit(args) -> int:
     else:
         result = fit(measurement, resolve_model(args.model), **constraints)
     design = design_values(result, at)
+    budget = uncertainty_budget(result, limits, at, monte_carlo=args.budget_mc)
     record = run_record(args, inputs, __version__)
 
     outputs: dict[str, bytes | str] = {}
     if args.json:
-        outputs[args.json] = json.dumps(fit_to_json(result, selection, design, record), indent=2) + "\n"
+        outputs[args.json] = json.dumps(fit_to_json(result, selection, design, record, budget=budget),
+                                       indent=2) + "\n"
     if args.curve:
         from .outputs.report import curve_table
 
@@ -225,9 +292,10 @@ def _cmd_fit(args) -> int:
     if args.report:
         from .outputs.html_report import render_html_report
 
-        outputs[args.report] = render_html_report(result, selection, design, record, figures)
+        outputs[args.report] = render_html_report(result, selection, design, record, figures,
+                                                   budget=budget)
     write_outputs(outputs, inputs)
-    print(format_fit_report(result, selection, design))
+    print(format_fit_report(result, selection, design, budget=budget))
     return 0
 
 
@@ -266,6 +334,7 @@ def build_parser() -> argparse.ArgumentParser:
     model.add_argument("--intervals", choices=["flagged", "all", "none"], default="flagged",
                        help="68 %% profile-likelihood intervals: for parameters whose first-order error "
                             "is not trustworthy (default), for every parameter, or none")
+    _add_budget_options(fitp)
     out = fitp.add_argument_group("outputs")
     out.add_argument("--at", action="append", default=[], metavar="FREQ",
                      help="operating frequency for design values (repeatable), e.g. --at 100k")

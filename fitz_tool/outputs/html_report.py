@@ -146,7 +146,7 @@ def _part(result: FitResult, record: RunRecord | None) -> str:
 
 
 def render_html_report(result: FitResult, selection: ModelSelection | None, design: DesignValues,
-                       record: RunRecord | None, figures: Mapping[str, object]) -> str:
+                       record: RunRecord | None, figures: Mapping[str, object], budget=None) -> str:
     """The whole report as one HTML string (UTF-8), figures embedded as base64 PNG.
 
     Parameters
@@ -157,6 +157,8 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
         Options, input files with checksums, tool version and date of the run.
     figures : mapping of str to matplotlib Figure
         Rendered in the given order, with captions from ``FIGURE_CAPTIONS`` where known; left open.
+    budget : fitz_tool.budget.Budget, optional
+        Adds the uncertainty budget section (see :mod:`fitz_tool.outputs.budget_report`).
     """
     prov = result.measurement.provenance
     part = prov.source or "part"
@@ -177,6 +179,10 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
         ("Flags", _list(result.flags, "flag")),
         ("Design values", _design(design)),
     ]
+    if budget is not None:
+        from .budget_report import budget_html
+
+        sections.append(("Uncertainty budget", budget_html(budget)))
     plots = []
     for key, figure in figures.items():
         caption = FIGURE_CAPTIONS.get(key, key)

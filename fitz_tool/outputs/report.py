@@ -177,8 +177,13 @@ SAFETY_LINE = ("Safety: discharge capacitors before handling them; never clip a 
                "(README, Safety).")
 
 
-def format_fit_report(result: FitResult, selection: ModelSelection | None, design: DesignValues) -> str:
-    """Terminal report: model, ranking (auto), parameters, fit quality, flags, design values, warnings."""
+def format_fit_report(result: FitResult, selection: ModelSelection | None, design: DesignValues,
+                      budget=None) -> str:
+    """Terminal report: model, ranking (auto), parameters, fit quality, flags, design values, warnings.
+
+    ``budget`` (a :class:`fitz_tool.budget.Budget`) adds the uncertainty budget; without it the report says
+    that the uncertainties are from noise only.
+    """
     prov = result.measurement.provenance
     m = result.measurement
     lines = [f"Part: {prov.source or '(data built in code)'}",
@@ -197,6 +202,9 @@ def format_fit_report(result: FitResult, selection: ModelSelection | None, desig
     lines += ["", "Fit quality:"] + [f"  {k:<20} {v}" for k, v in quality_rows(result)]
     lines += ["", "Flags:"] + ([f"  - {f}" for f in result.flags] or ["  none"])
     lines += ["", "Design values:"] + design_lines(design)
+    from .budget_report import NOISE_ONLY_LINE, budget_lines
+
+    lines += budget_lines(budget) if budget is not None else ["", NOISE_ONLY_LINE]
     if prov.warnings:
         lines += ["", "Measurement warnings:"] + [f"  - {w}" for w in prov.warnings]
     lines += ["", SAFETY_LINE]
@@ -230,11 +238,11 @@ def derived_to_json(design: DesignValues) -> dict:
 
 
 def fit_to_json(result: FitResult, selection: ModelSelection | None, design: DesignValues,
-                record: RunRecord | None) -> dict:
+                record: RunRecord | None, budget=None) -> dict:
     """The stable machine record of a fit (SI units, JSON-safe: no NaN or infinity, ``null`` instead).
 
     ``ranking`` is null unless the model was chosen automatically; ``correlation`` is null when the fit gave
-    no covariance.
+    no covariance. ``budget`` (a :class:`fitz_tool.budget.Budget`) adds the ``"budget"`` block.
     """
     prov = result.measurement.provenance
     correlation = None
@@ -246,7 +254,7 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
         chosen = selection.chosen.circuit.expression
         ranking = [{"expression": r.expression, "bic": _num(r.bic), "adequate": bool(r.adequate),
                     "note": r.note, "chosen": r.expression == chosen} for r in selection.ranking]
-    return {
+    record_json = {
         "model": result.circuit.expression,
         "parameters": {p.name: {"value": _num(p.value), "stderr": _num(p.stderr), "unit": p.unit,
                                 "vary": bool(p.vary), "at_bound": p.at_bound, "stderr_note": p.stderr_note,
@@ -272,6 +280,11 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
             "inputs": [{"path": i.path, "sha256": i.sha256} for i in record.inputs],
             "version": record.version, "date": record.date},
     }
+    if budget is not None:
+        from .budget_report import budget_to_json
+
+        record_json["budget"] = budget_to_json(budget)
+    return record_json
 
 
 # ---------------------------------------------------------------------------------------------- curve table
