@@ -11,12 +11,15 @@ import io
 import json
 import math
 import os
+import re
 import sys
+import warnings
 from collections.abc import Sequence
 from pathlib import Path
 
 from . import __version__
-from .exceptions import FitzError, InputError
+from .exceptions import FitzError, InputError, ModelSyntaxError, OutputError
+from .limits import check_expression, check_frequency, check_resistance, check_skew
 from .units import parse_quantity
 
 __all__ = ["main", "build_parser"]
@@ -58,11 +61,15 @@ def _read_options(args):
 
     column_map = dict(_key_value(item, "--map") for item in args.map)
     return ReadOptions(
-        shunt=parse_quantity(args.shunt, "ohm", "--shunt") if args.shunt else None,
-        reference=parse_quantity(args.reference, "ohm", "--reference") if args.reference else None,
+        shunt=_resistance(args.shunt, "--shunt"),
+        reference=_resistance(args.reference, "--reference"),
         column_map=column_map,
         through=args.through,
     )
+
+
+def _resistance(text: str | None, option: str) -> float | None:
+    return None if not text else check_resistance(parse_quantity(text, "ohm", option), option)
 
 
 def _band(text: str) -> tuple[float, float]:
@@ -171,11 +178,11 @@ def load_from_args(args):
     if args.load and not args.load_value:
         raise InputError("--load FILE needs --load-value OHMS (the known impedance of the load standard)")
     corrections = Corrections(
-        skew=parse_quantity(args.skew, "s", "--skew") if args.skew else None,
+        skew=check_skew(parse_quantity(args.skew, "s", "--skew")) if args.skew else None,
         open=standards.get("open"),
         short=standards.get("short"),
         load=standards.get("load"),
-        load_value=parse_quantity(args.load_value, "ohm", "--load-value") if args.load_value else None,
+        load_value=_resistance(args.load_value, "--load-value"),
     )
     measurement = apply_corrections(measurement, corrections)
     if args.noise:
@@ -200,10 +207,25 @@ def _figure_bytes(figure, fmt: str) -> bytes:
     return buffer.getvalue()
 
 
+def _plot_format(path: str, option: str) -> str:
+    """The figure format of ``path`` from its extension; InputError listing the formats matplotlib writes."""
+    from matplotlib.backend_bases import FigureCanvasBase
+
+    formats = sorted(FigureCanvasBase.get_supported_filetypes())
+    fmt = Path(path).suffix[1:].lower()
+    if fmt not in formats:
+        shown = f"'.{fmt}'" if fmt else "no extension"
+        raise InputError(f"{option} {path}: {shown} is not a figure format; end the name with one of "
+                         f"{', '.join('.' + f for f in formats)}")
+    return fmt
+
+
 def _cmd_inspect(args) -> int:
     from .inspection import format_summary, summarize
-    from .outputs.atomic import write_outputs
+    from .outputs.atomic import check_targets, write_outputs
 
+    fmt = _plot_format(args.plot, "--plot") if args.plot else None
+    check_targets([p for p in (args.csv, args.plot) if p], [args.file, *_standard_files(args)])
     measurement, inputs = load_from_args(args)
     summary = summarize(measurement)
     outputs: dict[str, bytes | str] = {}
@@ -214,30 +236,73 @@ def _cmd_inspect(args) -> int:
     if args.plot:
         from .outputs.plots import plot_measurement
 
-        outputs[args.plot] = _figure_bytes(plot_measurement(measurement), Path(args.plot).suffix[1:] or "png")
+        outputs[args.plot] = _figure_bytes(plot_measurement(measurement), fmt)
     write_outputs(outputs, inputs)
     print(format_summary(summary, measurement))
     return 0
 
 
+def _standard_files(args) -> list[str]:
+    return [path for path in (getattr(args, role, None) for role in ("open", "short", "load")) if path]
+
+
+def _finite(value: float, what: str) -> float:
+    if not math.isfinite(value):
+        raise InputError(f"{what}: {value!r} is not a finite number")
+    return value
+
+
 def _parse_named_values(items: Sequence[str], option: str) -> dict[str, float]:
-    values = {}
+    values: dict[str, float] = {}
     for item in items:
         name, text = _key_value(item, option)
-        values[name] = parse_quantity(text, "", f"{option} {name}")
+        if name in values:
+            raise InputError(f"{option} {name} given twice ({name}={values[name]:g} and {item}); "
+                             f"give it once")
+        values[name] = _finite(parse_quantity(text, "", f"{option} {name}"), f"{option} {name}")
     return values
 
 
 def _parse_bounds(items: Sequence[str]) -> dict[str, tuple[float, float]]:
-    bounds = {}
+    bounds: dict[str, tuple[float, float]] = {}
     for item in items:
         name, text = _key_value(item, "--bound")
         if ":" not in text:
             raise InputError(f"--bound {item!r}: expected NAME=LOW:HIGH, e.g. Rs=1m:10")
+        if name in bounds:
+            raise InputError(f"--bound {name} given twice; give one range per parameter")
         low, high = text.split(":", 1)
-        bounds[name] = (parse_quantity(low, "", f"--bound {name} low"),
-                        parse_quantity(high, "", f"--bound {name} high"))
+        low_value = parse_quantity(low, "", f"--bound {name} low")
+        high_value = parse_quantity(high, "", f"--bound {name} high")
+        if math.isnan(low_value) or math.isnan(high_value) or not low_value < high_value:
+            raise InputError(f"--bound {item!r}: the low limit must be below the high limit")
+        bounds[name] = (low_value, high_value)
     return bounds
+
+
+def _constraints(args) -> dict:
+    """--fix, --guess and --bound parsed and checked against each other (one role per parameter)."""
+    fixed = _parse_named_values(args.fix, "--fix")
+    guesses = _parse_named_values(args.guess, "--guess")
+    bounds = _parse_bounds(args.bound)
+    for name in fixed.keys() & guesses.keys():
+        raise InputError(f"--fix {name} and --guess {name}: a held parameter needs no starting value; "
+                         f"give one of them")
+    for name, value in fixed.items():
+        if name in bounds and not bounds[name][0] <= value <= bounds[name][1]:
+            low, high = bounds[name]
+            raise InputError(f"--fix {name}={value:g} lies outside its --bound {name}={low:g}:{high:g}; "
+                             f"move the value or the bound")
+    for name, value in guesses.items():
+        if name in bounds and not bounds[name][0] <= value <= bounds[name][1]:
+            low, high = bounds[name]
+            raise InputError(f"--guess {name}={value:g} lies outside its --bound {name}={low:g}:{high:g}; "
+                             f"move the value or the bound")
+    return dict(fixed=fixed, guesses=guesses, bounds=bounds, intervals=args.intervals)
+
+
+def _fit_targets(args) -> list[str]:
+    return [p for p in (args.json, args.curve, args.spice, args.report) if p]
 
 
 def _cmd_fit(args) -> int:
@@ -245,24 +310,29 @@ def _cmd_fit(args) -> int:
     from .derived import design_values
     from .fitting.least_squares import fit
     from .fitting.selection import fit_auto
-    from .outputs.atomic import write_outputs
+    from .outputs.atomic import check_targets, write_outputs
     from .outputs.report import fit_to_json, format_fit_report, run_record
     from .presets import resolve_model
 
+    check_expression(args.model)
+    at = [check_frequency(parse_quantity(a, "Hz", "--at"), "--at") for a in args.at]
+    constraints = _constraints(args)
     limits = budget_inputs_from_args(args)
+    check_targets(_fit_targets(args), [args.file, *_standard_files(args),
+                                       *([args.accuracy_table] if args.accuracy_table else [])])
+    if args.plot_dir and Path(args.plot_dir).exists() and not Path(args.plot_dir).is_dir():
+        raise OutputError(f"--plot-dir {args.plot_dir}: is a file, not a folder; choose a folder name")
     measurement, inputs = load_from_args(args)
     if args.accuracy_table:
         inputs.append(args.accuracy_table)
-    at = [parse_quantity(a, "Hz", "--at") for a in args.at]
-    constraints = dict(fixed=_parse_named_values(args.fix, "--fix"),
-                       guesses=_parse_named_values(args.guess, "--guess"),
-                       bounds=_parse_bounds(args.bound), intervals=args.intervals)
     selection = None
     if args.model.strip().lower() == "auto":
         selection = fit_auto(measurement, **constraints)
         result = selection.chosen
     else:
-        result = fit(measurement, resolve_model(args.model), **constraints)
+        circuit = resolve_model(args.model)
+        check_expression(circuit)
+        result = fit(measurement, circuit, **constraints)
     design = design_values(result, at)
     budget = uncertainty_budget(result, limits, at, monte_carlo=args.budget_mc)
     record = run_record(args, inputs, __version__)
@@ -351,23 +421,91 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; returns the exit code (also used by the ``fitz-tool`` console script)."""
-    parser = build_parser()
-    args = parser.parse_args(argv)
+#: A value that starts with "-" and reads as a number ("-5n", "-1e3", "-1k:2k", "-0.5%:0.2deg").
+_NEGATIVE_VALUE = re.compile(r"^-(\d|\.\d)")
+
+
+def _value_options(parser: argparse.ArgumentParser) -> set[str]:
+    """Every option string (of the parser and its subcommands) that takes exactly one value."""
+    options: set[str] = set()
+    stack = [parser]
+    while stack:
+        current = stack.pop()
+        for action in current._actions:
+            if isinstance(action, argparse._SubParsersAction):
+                stack.extend(action.choices.values())
+            elif action.option_strings and action.nargs is None and not isinstance(
+                    action, argparse._StoreConstAction | argparse._StoreTrueAction | argparse._VersionAction
+                    | argparse._HelpAction | argparse._CountAction):
+                options.update(action.option_strings)
+    return options
+
+
+def join_negative_values(argv: Sequence[str], parser: argparse.ArgumentParser) -> list[str]:
+    """``--skew -5n`` -> ``--skew=-5n``: argparse would take a value starting with "-" for an option."""
+    options = _value_options(parser)
+    joined: list[str] = []
+    k = 0
+    while k < len(argv):
+        token = argv[k]
+        if token == "--":
+            joined.extend(argv[k:])
+            break
+        if token in options and k + 1 < len(argv) and _NEGATIVE_VALUE.match(argv[k + 1]):
+            joined.append(f"{token}={argv[k + 1]}")
+            k += 2
+            continue
+        joined.append(token)
+        k += 1
+    return joined
+
+
+def _run(args) -> int:
     try:
         return args.handler(args)
+    except RecursionError:
+        raise ModelSyntaxError("input nested too deeply to follow; simplify it") from None
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; returns the exit code (also used by the ``fitz-tool`` console script).
+
+    No Python warning reaches the user (what matters is in the report's warnings); running out of memory is
+    one line; an unexpected error is one line asking for a report (``FITZ_TOOL_DEBUG=1`` shows the traceback).
+    """
+    parser = build_parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    args = parser.parse_args(join_negative_values(argv, parser))
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return _run(args)
     except FitzError as exc:
         print(f"fitz-tool: error: {exc}", file=sys.stderr)
         return exc.exit_code
+    except MemoryError:
+        print("fitz-tool: error: out of memory; use fewer points (--band) or a smaller model",
+              file=sys.stderr)
+        return 1
     except KeyboardInterrupt:
-        print("fitz-tool: interrupted", file=sys.stderr)
+        print("fitz-tool: interrupted; no output written", file=sys.stderr)
         return 130
+    except SystemExit as exc:  # outputs.atomic.Terminated on SIGTERM during the writes
+        if exc.code == 143:
+            print("fitz-tool: terminated; no output written", file=sys.stderr)
+        raise
     except BrokenPipeError:
         # the reader of our output (e.g. `| head`) went away; nothing is wrong with the work done
         # (Python docs, "Note on SIGPIPE"): point stdout at devnull so the exit flush stays quiet.
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
+    except Exception as exc:  # noqa: BLE001 - the last guard: one line instead of a traceback
+        if os.environ.get("FITZ_TOOL_DEBUG"):
+            raise
+        detail = (str(exc).strip().splitlines() or [""])[0][:200]
+        print(f"fitz-tool: internal error: {type(exc).__name__}: {detail} (please report this with the input "
+              f"file and command; FITZ_TOOL_DEBUG=1 shows the details)", file=sys.stderr)
+        return 1
 
 
 if __name__ == "__main__":
