@@ -211,18 +211,35 @@ def _commit(staged: list[_Staged]) -> None:
             item.backup = backup
     try:
         for item in staged:
+            item.committed = True  # before the rename: a signal may arrive just after it
             os.replace(item.temporary, item.target)
             item.temporary = None
-            item.committed = True
     except BaseException:
-        for item in staged:
-            if item.committed:
-                if item.backup:
-                    os.replace(item.backup, item.target)
-                    item.backup = None
-                else:
-                    os.unlink(item.target)
+        _restore(staged)
         raise
+
+
+def _restore(staged: list[_Staged]) -> None:
+    """Put back the older outputs of a commit that failed half way (signals held off meanwhile)."""
+    held = {signal.SIGINT, signal.SIGTERM}
+    in_main = threading.current_thread() is threading.main_thread()
+    if in_main:
+        signal.pthread_sigmask(signal.SIG_BLOCK, held)
+    try:
+        for item in staged:
+            if not item.committed or item.temporary is not None and os.path.exists(item.temporary):
+                continue  # never renamed: the target still holds the older output (or nothing)
+            if item.backup:
+                os.replace(item.backup, item.target)
+                item.backup = None
+            else:
+                try:
+                    os.unlink(item.target)
+                except FileNotFoundError:
+                    pass
+    finally:
+        if in_main:
+            signal.pthread_sigmask(signal.SIG_UNBLOCK, held)
 
 
 def _clean(staged: list[_Staged], success: bool) -> None:
