@@ -195,7 +195,7 @@ BAD_FILES = {
     "wrong_format.s1p": ("# MHz S XY R 50\n1 0.5 10\n", "unknown field 'xy'"),
     "wrong_reference.s1p": ("# MHz S MA R fifty\n1 0.5 10\n", "no positive reference"),
     "no_option_line.s1p": ("1 0.5 10\n2 0.4 20\n", "data before the option line"),
-    "impedance_data.s1p": ("# MHz Z MA R 50\n1 0.5 10\n", "holds Z parameters"),
+    "hybrid_data.s1p": ("# MHz H MA R 50\n1 0.5 10\n", "holds H parameters"),
     "non_numeric.s1p": ("# MHz S MA R 50\n1 0.5 10\n2 0,4 20\n", "row 3, column 2: '0,4' is not a finite"),
     "not_a_number.s1p": ("# MHz S MA R 50\n1 0.5 10\n2 nan 20\n", "row 3, column 2: 'nan' is not a finite"),
     "two_port_data.s1p": ("# MHz S RI R 50\n1 0 0 1 0 1 0 0 0\n", "9 values.*2-port file: check the ext"),

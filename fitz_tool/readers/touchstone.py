@@ -37,6 +37,7 @@ import hashlib
 import math
 import re
 import warnings
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -48,6 +49,8 @@ from ..measurement import Measurement, Provenance
 
 __all__ = [
     "MAX_SENSITIVITY",
+    "NetworkFile",
+    "read_network",
     "read_touchstone",
     "s11_to_z",
     "s21_shunt_to_z",
@@ -129,9 +132,9 @@ def _check_option_line(path: Path, number: int, line: str) -> None:
                              f"{_OPTION_HELP}")
         k += 1
     parameter = next((t for t in tokens if t in _PARAMETERS), "s")
-    if parameter != "s":
+    if parameter not in ("s", "y", "z"):
         raise InputError(f"{path}: row {number}: the file holds {parameter.upper()} parameters; fitz_tool "
-                         f"reads S-parameter Touchstone files (export S from the analyzer)")
+                         f"reads S-, Z- and Y-parameter Touchstone files (export one of those)")
 
 
 def _is_number(token: str) -> bool:
@@ -143,11 +146,18 @@ def _is_number(token: str) -> bool:
 
 
 def _check_layout(path: Path, text: str, nports: int) -> None:
-    """Check option line, numbers and values per row of a Touchstone 1.x file (row and column named)."""
+    """Check option line, numbers and values per row of a Touchstone 1.x file (row and column named).
+
+    A 2-port row may be wrapped over several lines (the standard allows it): numbers are collected until a
+    row is complete. A 5-value row after the data, at a frequency not above the last one, starts the noise
+    parameters (2-port files only).
+    """
     expected = 1 + 2 * nports * nports
-    other = {3: 1, 9: 2}
     option_seen = False
     rows = 0
+    pending: list[str] = []
+    start = 0
+    last_frequency = -math.inf
     lines = text.splitlines()
     for number, raw in enumerate(lines, 1):
         line = raw.split("!", 1)[0].strip()
@@ -167,20 +177,40 @@ def _check_layout(path: Path, text: str, nports: int) -> None:
         for column, token in enumerate(tokens, 1):
             if not _is_number(token) or not math.isfinite(float(token)):
                 raise InputError(f"{path}: row {number}, column {column}: {token!r} is not a finite number")
-        noise_row = nports == 2 and len(tokens) == 5 and rows > 0
-        if len(tokens) != expected and not noise_row:
-            last = not any(r.split("!", 1)[0].strip() for r in lines[number:])
-            hint = (" (the file looks truncated)" if last and len(tokens) < expected else
-                    f" (this looks like a {other[len(tokens)]}-port file: check the extension)"
-                    if len(tokens) in other else "")
-            raise InputError(f"{path}: row {number} has {len(tokens)} values; a {nports}-port file needs "
-                             f"{expected} per row (frequency and {nports * nports} complex S-parameter"
-                             f"{'s' if nports > 1 else ''}){hint}")
+        if pending and len(tokens) % 2:  # a continuation holds value pairs only: the row above is short
+            _row_error(path, lines, start, start, len(pending), nports)
+        if not pending:
+            noise_row = (nports == 2 and len(tokens) == 5 and rows > 0
+                         and float(tokens[0]) <= last_frequency)
+            if noise_row:
+                return
+            start = number
+        pending += tokens
+        if nports == 2 and len(pending) < expected and len(pending) % 2:
+            continue  # a wrapped 2-port row (frequency and pairs, then pairs) goes on on the next line
+        if len(pending) != expected:
+            _row_error(path, lines, start, number, len(pending), nports)
+        last_frequency = float(pending[0])
+        pending = []
         rows += 1
+    if pending:
+        _row_error(path, lines, start, len(lines), len(pending), nports)
     if not option_seen:
         raise InputError(f"{path}: no option line; {_OPTION_HELP}")
     if rows == 0:
         raise InputError(f"{path}: no data rows after the option line")
+
+
+def _row_error(path: Path, lines: list[str], start: int, number: int, count: int, nports: int) -> None:
+    """Raise the error for a row of ``count`` values on lines ``start``..``number`` (1-based)."""
+    expected = 1 + 2 * nports * nports
+    other = {3: 1, 9: 2}
+    last = not any(r.split("!", 1)[0].strip() for r in lines[number:])
+    hint = (" (the file looks truncated)" if last and count < expected else
+            f" (this looks like a {other[count]}-port file: check the extension)" if count in other else "")
+    where = f"row {start}" if start == number else f"rows {start}-{number}"
+    raise InputError(f"{path}: {where} has {count} values; a {nports}-port file needs {expected} per row "
+                     f"(frequency and {nports * nports} complex parameter{'s' if nports > 1 else ''}){hint}")
 
 
 def _load(path: Path) -> tuple[skrf.Network, Touchstone, list[str], str]:
@@ -226,6 +256,77 @@ def _describe_reference(z0: np.ndarray) -> str:
     return ", ".join(f"port {k + 1}: {v:g} ohm" for k, v in enumerate(values))
 
 
+@dataclass(frozen=True)
+class NetworkFile:
+    """A Touchstone file read with scikit-rf, checked, with what reading it involved.
+
+    Attributes
+    ----------
+    path : Path
+        The file.
+    network : skrf.Network
+        Its data as S-parameters (frequency in Hz); Z- and Y-parameter files are converted.
+    z0 : ndarray of float
+        Real, positive reference impedance in ohm, shape (points, ports).
+    version, frequency_unit, data_format, parameter : str
+        Touchstone version, frequency unit and number format as in the file, parameter letter (s, z, y).
+    sha256 : str
+        SHA-256 of the file's bytes.
+    steps, notes : tuple of str
+        Conversions made while reading; scikit-rf's warnings.
+    """
+
+    path: Path
+    network: skrf.Network
+    z0: np.ndarray
+    version: str
+    frequency_unit: str
+    data_format: str
+    parameter: str
+    sha256: str
+    steps: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
+
+    @property
+    def reference(self) -> str:
+        """The reference impedance in words (``"50 ohm"``, per port, or frequency-dependent)."""
+        return _describe_reference(self.z0)
+
+
+def read_network(path: str | Path) -> NetworkFile:
+    """Read and check a ``.s1p`` or ``.s2p`` file (S, Z or Y parameters) with scikit-rf.
+
+    Touchstone 1.x stores Z and Y normalized to the reference R (z = Z / R, y = Y R; Touchstone 1.1
+    specification, from memory). scikit-rf 2.2 multiplies both by R before converting to S, which is right
+    for Z and wrong for Y; Y files are corrected here (Y = y / R) and the step recorded.
+
+    Raises
+    ------
+    InputError
+        Unreadable or malformed file (row and column named), wrong port count, complex reference.
+    """
+    path = Path(path)
+    network, touchstone, notes, sha256 = _load(path)
+    z0 = _reference(path, network)
+    parameter = str(touchstone.parameter).lower()
+    version = str(touchstone.version)
+    steps: list[str] = []
+    if parameter in ("z", "y"):
+        letter = parameter.upper()
+        if parameter == "y" and version.startswith("1"):
+            y = skrf.network.s2y(network.s, network.z0) / (z0**2)[:, :, None]
+            network = network.copy()
+            network.s = skrf.network.y2s(y, network.z0)
+        steps.append(f"{letter} parameters converted to S with scikit-rf "
+                     + ("(Touchstone 1.x values normalized to R: Z = z R)" if parameter == "z" and
+                        version.startswith("1") else
+                        "(Touchstone 1.x values normalized to 1/R: Y = y / R)" if version.startswith("1")
+                        else "(values in ohm and siemens)"))
+    return NetworkFile(path=path, network=network, z0=z0, version=version,
+                       frequency_unit=str(touchstone.frequency_unit), data_format=str(touchstone.format),
+                       parameter=parameter, sha256=sha256, steps=tuple(steps), notes=tuple(notes))
+
+
 def read_touchstone(path: str | Path, options=None) -> Measurement:
     """Read a ``.s1p`` (reflection) or ``.s2p`` (shunt- or series-through) file into a Measurement.
 
@@ -249,10 +350,10 @@ def read_touchstone(path: str | Path, options=None) -> Measurement:
     """
     path = Path(path)
     through = getattr(options, "through", None)
-    network, touchstone, notes, sha256 = _load(path)
-    z0 = _reference(path, network)
+    read = read_network(path)
+    network, z0 = read.network, read.z0
     frequency = np.asarray(network.f, dtype=float)
-    warnings_: list[str] = list(notes)
+    warnings_: list[str] = list(read.notes)
     if network.nports == 1:
         form, field, s = "touchstone_s11", "S11", network.s[:, 0, 0]
         z01 = z02 = z0[:, 0]
@@ -269,8 +370,8 @@ def read_touchstone(path: str | Path, options=None) -> Measurement:
         impedance = convert(s, z01, z02)
     sensitivity = lnz_sensitivity(form, s, z01, z02)
 
-    steps = [f"read {len(frequency)} points of {field} from Touchstone {touchstone.version} with scikit-rf, "
-             f"reference {_describe_reference(z0)}",
+    steps = [f"read {len(frequency)} points from Touchstone {read.version} with scikit-rf, "
+             f"reference {read.reference}", *read.steps,
              f"converted {field} to impedance: {_FORMULAS[form]}"]
     positive = frequency > 0
     usable = positive & np.isfinite(impedance) & (impedance != 0) & np.isfinite(sensitivity) & (
@@ -291,10 +392,10 @@ def read_touchstone(path: str | Path, options=None) -> Measurement:
     active = int(np.sum(np.abs(s) > 1.01))  # beyond noise: a passive part has |S| <= 1
     if active:
         warnings_.append(f"{active} point(s) have |{field}| > 1.01 (not passive): check the calibration")
-    unit, fmt = str(touchstone.frequency_unit), str(touchstone.format)
+    unit, fmt = read.frequency_unit, read.data_format
     provenance = Provenance(
         source=str(path),
-        sha256=sha256,
+        sha256=read.sha256,
         form=form,
         columns={"frequency": "frequency", "S": field, "reference": _describe_reference(z0)},
         units={"frequency": _UNITS.get(unit.lower(), unit), "S": _FORMATS.get(fmt.lower(), fmt)},
