@@ -24,6 +24,9 @@ _EXPORTS: dict[str, str] = {
     "read_measurement": "readers",
     "Corrections": "corrections",
     "apply_corrections": "corrections",
+    "deembed_two_port": "fixtures",
+    "two_port_method": "fixtures",
+    "read_network": "readers.touchstone",
     "summarize": "inspection",
     "lin_kk": "kramers_kronig",
     # circuits and fitting

@@ -162,9 +162,16 @@ def budget_inputs_from_args(args):
 def load_from_args(args):
     """Read the bench file and apply corrections as the options say; returns (Measurement, input paths)."""
     from .corrections import Corrections, apply_corrections
+    from .fixtures import deembed_two_port, two_port_method
     from .readers import read_measurement
 
     options = _read_options(args)
+    inputs = [args.file] + [p for p in (args.open, args.short, args.load) if p]
+    if two_port_method(args.file, {"open": args.open, "short": args.short, "load": args.load}) == "two-port":
+        if args.skew:
+            raise InputError("--skew is for two-channel bench data, not for network-analyzer .s2p files")
+        measurement = deembed_two_port(args.file, args.through, open=args.open, short=args.short)
+        return _noise_and_band(args, measurement), inputs
     measurement = read_measurement(args.file, options)
     inputs = [args.file]
     standards = {}
@@ -185,6 +192,11 @@ def load_from_args(args):
         load_value=_resistance(args.load_value, "--load-value"),
     )
     measurement = apply_corrections(measurement, corrections)
+    return _noise_and_band(args, measurement), inputs
+
+
+def _noise_and_band(args, measurement):
+    """Stated noise (``--noise``) and the frequency band (``--band``) applied to a read measurement."""
     if args.noise:
         relative, phase = _noise(args.noise)
         measurement = measurement.with_stated_noise(relative, phase)
@@ -195,7 +207,7 @@ def load_from_args(args):
             raise InputError(f"{args.file}: --band {args.band} keeps {int(mask.sum())} points; widen it")
         measurement = measurement.select(mask, f"kept {int(mask.sum())} of {len(measurement)} points in "
                                                f"--band {args.band}")
-    return measurement, inputs
+    return measurement
 
 
 def _figure_bytes(figure, fmt: str) -> bytes:

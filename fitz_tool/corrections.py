@@ -46,6 +46,7 @@ import numpy as np
 
 from .exceptions import InputError
 from .measurement import Measurement
+from .standards import check_between, check_swapped
 from .units import format_quantity
 
 __all__ = ["Corrections", "apply_corrections", "remove_skew", "compensate_fixture"]
@@ -112,6 +113,10 @@ def _on_grid(standard: Measurement, values: np.ndarray, frequency: np.ndarray, r
     return np.interp(frequency, f_std, values.real) + 1j * np.interp(frequency, f_std, values.imag)
 
 
+def _name(standard: Measurement) -> str:
+    return repr(standard.provenance.source) if standard.provenance.source else "standard"
+
+
 def _label(standard: Measurement, role: str) -> str:
     return f"{role} {standard.provenance.source!r}" if standard.provenance.source else role
 
@@ -148,9 +153,16 @@ def compensate_fixture(measurement: Measurement, open: Measurement | None = None
     zs = _on_grid(short, short.impedance, f, "short") if short is not None else np.zeros_like(zm)
     with np.errstate(divide="ignore", invalid="ignore"):
         yo = np.zeros_like(zm)
+        zo = np.full_like(zm, np.inf)
         if open is not None:
             zo = 1 / _on_grid(open, 1 / open.impedance, f, "open")
             yo = 1 / (zo - zs)
+    where = measurement.provenance.source or "measurement"
+    if open is not None and short is not None:
+        check_swapped(f, np.abs(zs), np.abs(zo), (_name(open), _name(short)))
+    outside = check_between(f, np.abs(zm) < np.abs(zs) if short is not None else np.zeros(f.shape, bool),
+                            np.abs(zm) > np.abs(zo), where)
+    with np.errstate(divide="ignore", invalid="ignore"):
         u = zm - zs
         zdut = u / (1 - u * yo)
         amplification = np.abs(zm / (u * (1 - u * yo)))
@@ -177,13 +189,16 @@ def compensate_fixture(measurement: Measurement, open: Measurement | None = None
     usable = (np.isfinite(zdut) & (zdut != 0) & np.isfinite(amplification)
               & (amplification <= MAX_AMPLIFICATION))
     if not np.any(usable):
-        raise InputError(f"{measurement.provenance.source or 'measurement'}: the part is indistinguishable "
+        raise InputError(f"{where}: the part is indistinguishable "
                          f"from the standards at every frequency; check the standards")
 
     had_sigma = measurement.sigma_lnmag is not None or measurement.sigma_phase is not None
     provenance = measurement.provenance.with_step(step).with_step(
         "sigmas multiplied by |d ln Zdut / d ln Zm| (standards' own noise neglected)" if had_sigma else
         "relative sigmas set to |d ln Zdut / d ln Zm| (equal weights in ln Zm before compensation)")
+    provenance = provenance.with_step(
+        "standards checked: " + ("short below the open, " if open is not None and short is not None else "")
+        + ("part between them at every point" if outside is None else "see warnings"), warning=outside)
     if not np.all(usable):
         provenance = provenance.with_step(
             f"kept {int(usable.sum())} of {len(f)} points after compensation",
