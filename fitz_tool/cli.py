@@ -390,6 +390,141 @@ def _cmd_models(args) -> int:
     return 0
 
 
+# ---------------------------------------------------------------------------------------------- lots
+
+
+def _lot_settings(args, model: str):
+    from .lot import LotSettings
+    from .lot.job import READING_FIELDS
+
+    at = {}
+    for text in args.at:
+        label = text.strip().removesuffix("Hz")
+        at[label] = parse_quantity(text, "Hz", "--at")
+    return LotSettings(model=model, reading={k: getattr(args, k) for k in READING_FIELDS},
+                       fixed=_parse_named_values(args.fix, "--fix"),
+                       guesses=_parse_named_values(args.guess, "--guess"), bounds=_parse_bounds(args.bound),
+                       intervals=args.intervals, at=at, specs=tuple(args.spec),
+                       per_file_model=getattr(args, "per_file_model", False))
+
+
+def _lot_report_outputs(result, stats, report: str | None, title: str) -> dict[str, bytes | str]:
+    if not report:
+        return {}
+    from .outputs.lot_report import lot_figures, render_lot_html
+
+    return {report: render_lot_html(result, stats, lot_figures(result), title=title)}
+
+
+def _cmd_lot(args) -> int:
+    from .lot import collect_files, lot_statistics, read_manifest, run_lot, table_from_store, write_table
+    from .outputs.atomic import write_outputs
+    from .outputs.lot_report import format_lot_summary
+
+    if args.workers is not None and args.workers < 1:
+        raise InputError(f"--workers {args.workers}: give 1 or more")
+    if args.from_store:
+        if args.paths or args.manifest:
+            raise InputError("--from-store rebuilds the table from the store: give no files or --manifest")
+        result = table_from_store(args.from_store, specs=args.spec or None)
+        inputs = [args.from_store]
+    else:
+        if not args.model:
+            raise InputError("lot: --model EXPR|PRESET|auto is required (unless --from-store)")
+        if args.per_file_model and args.model.strip().lower() != "auto":
+            raise InputError("--per-file-model applies to --model auto only")
+        if args.manifest and args.paths:
+            raise InputError("lot: give files or --manifest, not both")
+        items = read_manifest(args.manifest) if args.manifest else collect_files(args.paths)
+        store = args.store or str(Path(args.table).resolve().parent / "fitz_results.sqlite")
+        inputs = [i.file for i in items] + ([args.manifest] if args.manifest else []) + [store]
+        result = run_lot(items, _lot_settings(args, args.model), store=store, refit=args.refit,
+                         workers=args.workers, scheduler=args.scheduler, progress=sys.stderr.isatty())
+    stats = lot_statistics(result.table, result.specs)
+    outputs = {args.table: write_table(result.table, args.table)}
+    outputs.update(_lot_report_outputs(result, stats, args.report, "Lot report"))
+    written = write_outputs(outputs, inputs)
+    print(format_lot_summary(result, stats), end="")
+    print("Written: " + ", ".join(str(p) for p in written)
+          + ("" if args.from_store else f"; results store: {store}"))
+    return 1 if result.n_errors else 0
+
+
+def _cmd_compare(args) -> int:
+    from .lot import LotItem, lot_statistics, run_lot
+    from .outputs.atomic import write_outputs
+    from .outputs.lot_report import format_comparison
+
+    if not 2 <= len(args.files) <= 3:
+        raise InputError(f"compare: give two or three files ({len(args.files)} given)")
+    items = [LotItem(file=f, part=Path(f).stem) for f in args.files]
+    if len({i.part for i in items}) < len(items):
+        items = [LotItem(file=i.file, part=f"{k + 1}:{i.part}") for k, i in enumerate(items)]
+    result = run_lot(items, _lot_settings(args, args.model), workers=1)
+    if result.n_errors == len(items) or len(items) - result.n_errors < 2:
+        errors = "; ".join(result.table.loc[result.table["status"] != "ok", "error"])
+        raise InputError(f"compare: fewer than two parts gave a result ({errors})")
+    stats = lot_statistics(result.table, result.specs)
+    outputs = _lot_report_outputs(result, stats, args.report, "Comparison of " + ", ".join(args.files))
+    if args.table:
+        from .lot import write_table
+        from .outputs.lot_report import compare_table
+
+        outputs[args.table] = write_table(compare_table(result), args.table)
+    written = write_outputs(outputs, args.files)
+    print(format_comparison(result), end="")
+    if written:
+        print("Written: " + ", ".join(str(p) for p in written))
+    return 1 if result.n_errors else 0
+
+
+def _add_fit_options(parser: argparse.ArgumentParser) -> None:
+    """Model constraints and operating frequencies shared by lot and compare."""
+    group = parser.add_argument_group("parameters and design values")
+    group.add_argument("--fix", action="append", default=[], metavar="NAME=VALUE", help="hold a parameter")
+    group.add_argument("--guess", action="append", default=[], metavar="NAME=VALUE", help="starting value")
+    group.add_argument("--bound", action="append", default=[], metavar="NAME=LOW:HIGH", help="limits")
+    group.add_argument("--intervals", choices=["flagged", "all", "none"], default="flagged",
+                       help="profile-likelihood intervals, as for fit")
+    group.add_argument("--at", action="append", default=[], metavar="FREQ",
+                       help="operating frequency for design values (repeatable), e.g. --at 100k")
+    group.add_argument("--spec", action="append", default=[], metavar="NAME=LIMITS",
+                       help="spec limit (repeatable): NAME=NOMINAL+-TOL%%, NAME=LOW:HIGH, NAME=LOW: or "
+                            "NAME=:HIGH; NAME a parameter, SRF or VALUE@FREQ (ESR@100k, Q@100k, L_eff@100k)")
+
+
+def _add_lot_commands(commands) -> None:
+    lot = commands.add_parser("lot", help="fit many bench files alike: table, spec verdicts, statistics")
+    lot.add_argument("paths", nargs="*", metavar="PATH", help="bench files, folders or globs")
+    lot.add_argument("--manifest", metavar="FILE.csv",
+                     help="CSV listing file, part, condition columns and per-file shunt/through/open/short")
+    lot.add_argument("--model", metavar="EXPR|PRESET|auto",
+                     help="one model for every file; auto picks the one with the best total BIC")
+    lot.add_argument("--per-file-model", action="store_true", help="with auto: each file its own model")
+    _add_reader_options(lot)
+    _add_fit_options(lot)
+    out = lot.add_argument_group("table, store and workers")
+    out.add_argument("--table", required=True, metavar="OUT.csv", help="the lot table (.csv, or .parquet)")
+    out.add_argument("--report", metavar="OUT.html", help="HTML report with statistics and plots")
+    out.add_argument("--store", metavar="PATH",
+                     help="SQLite results store (default: fitz_results.sqlite beside the table)")
+    out.add_argument("--refit", action="store_true", help="fit every file again, ignoring stored results")
+    out.add_argument("--from-store", metavar="PATH", help="rebuild the table of the store's latest run")
+    out.add_argument("--workers", type=int, metavar="N", help="worker processes (default: the core count)")
+    out.add_argument("--scheduler", metavar="ADDRESS",
+                     help="Dask scheduler address, e.g. tcp://10.0.0.5:8786 (needs 'distributed')")
+    lot.set_defaults(handler=_cmd_lot)
+
+    compare = commands.add_parser("compare", help="fit two or three parts alike and tabulate differences")
+    compare.add_argument("files", nargs="+", metavar="FILE")
+    compare.add_argument("--model", required=True, metavar="EXPR|PRESET|auto", help="as for lot")
+    _add_reader_options(compare)
+    _add_fit_options(compare)
+    compare.add_argument("--table", metavar="OUT.csv", help="write the difference table")
+    compare.add_argument("--report", metavar="OUT.html", help="HTML report with the |Z| and phase overlay")
+    compare.set_defaults(handler=_cmd_compare)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="fitz-tool",
@@ -430,6 +565,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     models = commands.add_parser("models", help="list the named starting topologies")
     models.set_defaults(handler=_cmd_models)
+    _add_lot_commands(commands)
     return parser
 
 
