@@ -41,6 +41,8 @@ def _add_reader_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--shunt", metavar="OHMS", help="series shunt resistance when current is a voltage")
     group.add_argument("--reference", metavar="OHMS",
                        help="reference resistor for a transfer-ratio file (part voltage / reference voltage)")
+    group.add_argument("--dbm-reference", metavar="OHMS",
+                       help="impedance that channel levels in dBm are referred to, e.g. 50")
     group.add_argument("--through", choices=["shunt", "series"],
                        help=".s2p files: part shunted across the through line, or in series with it")
     group.add_argument("--band", metavar="FMIN:FMAX", help="keep only this frequency range, e.g. 1k:30M")
@@ -65,6 +67,8 @@ def _read_options(args):
         reference=_resistance(args.reference, "--reference"),
         column_map=column_map,
         through=args.through,
+        dbm_reference=(parse_quantity(args.dbm_reference, "ohm", "--dbm-reference")
+                       if args.dbm_reference else None),
     )
 
 

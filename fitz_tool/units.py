@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import math
 import re
+import unicodedata
 
 from matplotlib.ticker import EngFormatter
 
@@ -14,7 +15,7 @@ from .exceptions import InputError
 
 __all__ = [
     "SI_PREFIXES", "prefix_factor", "parse_quantity", "format_quantity", "format_relative",
-    "format_to_resolution",
+    "format_to_resolution", "HEADER_BASES", "read_unit",
 ]
 
 #: Multipliers of the SI prefixes (both "u" and the micro sign are accepted for 1e-6).
@@ -120,3 +121,115 @@ def format_to_resolution(value: float, unit: str, resolution: float) -> str:
     if rounded == 0:
         return _eng(0.0, unit, 0)
     return _eng(rounded, unit, min(max(0, _prefix_exponent(rounded) - last), 9))
+
+
+# --- unit words in file headers -------------------------------------------------------------------------
+
+#: Base units a header may state, in the spelling the readers use, with the amplitude convention allowed.
+#: ``dBV``/``dBA`` are levels in dB re 1 (prefixed) volt or ampere rms, ``dBm`` a power level in dB re 1 mW.
+HEADER_BASES = ("Hz", "rad/s", "deg", "rad", "V", "A", "dBV", "dBA", "dBm", "ohm", "dBohm", "dB", "", "F",
+                "H", "%")
+_CONVENTION_WORD = r"(?P<conv>rms|eff|peak[\s-]*to[\s-]*peak|pk[\s-]*pk|p[\s-]*p|pp|ptp|peak|pk)"
+_CONV_FRONT = re.compile(rf"^(?i:{_CONVENTION_WORD})(?:\s+|-|(?=[A-Za-z\u00b5\u03bc]))(?P<rest>.+)$")
+_CONV_BACK = re.compile(rf"^(?P<rest>.+?)[\s-]*(?i:{_CONVENTION_WORD})$")
+_CONVENTION_OF = {"rms": "rms", "eff": "rms", "pp": "pp", "ptp": "pp", "peak": "peak", "pk": "peak"}
+_LONG_PREFIX = {"kilo": "k", "mega": "M", "giga": "G", "milli": "m", "micro": "u", "nano": "n", "pico": "p"}
+_WORD_BASES = {"hz": "Hz", "hertz": "Hz", "rad/s": "rad/s", "rad/sec": "rad/s", "rads": "rad/s",
+               "ohm": "ohm", "ohms": "ohm", "\u03c9": "ohm", "v": "V", "volt": "V", "volts": "V", "a": "A",
+               "amp": "A", "amps": "A", "ampere": "A", "amperes": "A"}
+_UNPREFIXED = {"deg": "deg", "degree": "deg", "degrees": "deg", "\u00b0": "deg", "rad": "rad",
+               "radian": "rad", "radians": "rad", "%": "%", "v/v": "", "db": "dB", "dbc": "dB"}
+_DB = re.compile(r"(?i)^db\s*(?:\(\s*)?(?P<ref>[a-z\u00b5\u03bc\u03c9\u2126]*)(?:\s*\))?$")
+
+
+def _convention(word: str) -> str:
+    word = re.sub(r"[\s-]", "", word.lower())
+    return "pp" if word.startswith(("peakto", "pkpk", "pp", "ptp")) or word == "pp" else _CONVENTION_OF[word]
+
+
+def _prefixed(text: str) -> tuple[str, str] | None:
+    """``"kHz"`` -> ("k", "Hz"); ``"MOhm"`` -> ("M", "ohm"); None when not a prefixed base unit."""
+    for long, short in _LONG_PREFIX.items():
+        if text.lower().startswith(long) and len(text) > len(long):
+            rest = text[len(long):]
+            rest = "ohm" if long == "kilo" and rest.lower() == "hm" else rest  # "kilohm"
+            base = _prefixed_base(rest)
+            return (short, base) if base else None
+    if text in ("F", "H"):
+        return "", text
+    if text.lower().startswith("meg") and _prefixed_base(text[3:]) not in (None, "V", "A"):
+        return "M", _prefixed_base(text[3:]) or ""
+    if text.lower() in _WORD_BASES:
+        return "", _WORD_BASES[text.lower()]
+    prefix, rest = text[:1], text[1:]
+    if prefix not in SI_PREFIXES or not rest:
+        return None
+    if rest in ("F", "H"):
+        return prefix, rest
+    base = _prefixed_base(rest)
+    if base is None:
+        return None
+    if base == "Hz" and prefix == "m" and rest == "hz":
+        prefix = "M"  # all-lowercase "mhz" (as in freq_mhz) means megahertz; "mHz" stays milli
+    return prefix, base
+
+
+def _prefixed_base(text: str) -> str | None:
+    return _WORD_BASES.get(text.lower())
+
+
+def read_unit(text: str) -> tuple[str, str, str | None] | None:
+    """Read a unit as headers write it; None when it is not one fitz_tool understands.
+
+    Understood: any SI prefix (``u``, ``µ`` and ``μ`` micro; ``m`` milli, ``M``/``meg`` mega; also spelled
+    out, ``kilo``...) on Hz, rad/s, V, A, ohm (``Ω``), F, H; deg (``°``), rad, %, ``V/V``; dB (a ratio),
+    dBV/dBmV/dBuV and dBA/dBmA/dBuA (levels re 1 V or 1 A rms, or re the stated convention), dBm (power re
+    1 mW), dBOhm (|Z| re 1 ohm); an amplitude convention (rms, pk/peak, pp/p-p/pk-pk/peak-to-peak) before or
+    after a voltage or current unit, or alone. Brackets inside (``mV(rms)``) are read as spaces.
+
+    Returns
+    -------
+    tuple or None
+        ``(prefix, base, convention)`` with ``base`` one of ``HEADER_BASES`` (``""`` a linear ratio or a
+        convention alone); for dBV/dBA the prefix is that of the reference (``dBmV`` -> ``"m"``).
+    """
+    compact = unicodedata.normalize("NFKC", text).replace("\u2126", "\u03a9")
+    compact = re.sub(r"[()\[\]{}]", " ", compact)
+    compact = re.sub(r"[\s_]+", " ", compact).strip()
+    if not compact:
+        return None
+    convention = None
+    for pattern in (_CONV_BACK, _CONV_FRONT):
+        match = pattern.match(compact)
+        if match and match.group("rest").strip():
+            rest = match.group("rest").strip()
+            if pattern is _CONV_BACK and re.fullmatch(r"(?i)dB[a-z]*", compact) and len(rest) < 2:
+                continue
+            convention, compact = _convention(match.group("conv")), rest
+            break
+    if re.fullmatch(rf"(?i){_CONVENTION_WORD}", compact) and convention is None:
+        return "", "", _convention(compact)
+    compact = compact.replace(" ", "")
+    db = _DB.match(compact)
+    if db:
+        ref = db.group("ref")
+        if ref == "" or ref.lower() == "c":
+            return ("", "dB", None) if convention is None else None
+        if ref.lower() in ("ohm", "ohms", "\u03c9"):
+            return ("", "dBohm", None) if convention is None else None
+        if ref in ("m", "mW"):
+            return ("", "dBm", None) if convention is None else None
+        prefixed = _prefixed(ref)
+        if prefixed and prefixed[1] in ("V", "A"):
+            return prefixed[0], "dB" + prefixed[1], convention or "rms"
+        return None
+    lower = compact.lower()
+    if lower in _UNPREFIXED:
+        return ("", _UNPREFIXED[lower], None) if convention is None else None
+    prefixed = _prefixed(compact)
+    if prefixed is None:
+        return None
+    prefix, base = prefixed
+    if convention is not None and base not in ("V", "A"):
+        return None
+    return prefix, base, convention

@@ -7,38 +7,14 @@ recognition in ``headers.py`` and ``columns.py``, the five input forms in ``form
 
 from __future__ import annotations
 
-from collections.abc import Mapping
-from dataclasses import dataclass, field
 from pathlib import Path
-from types import MappingProxyType
 
 from ..measurement import Measurement
+from .options import ReadOptions
 
 __all__ = ["ReadOptions", "read_measurement"]
 
 _TOUCHSTONE_SUFFIXES = (".s1p", ".s2p")
-
-
-@dataclass(frozen=True)
-class ReadOptions:
-    """What the file cannot say for itself.
-
-    Attributes
-    ----------
-    shunt : float or None
-        Series shunt resistance in ohm, when the current channel is the voltage across a shunt.
-    reference : float or None
-        Reference resistance in ohm of a transfer-ratio file (Z = R_ref * V_part / V_ref).
-    column_map : mapping of str to str
-        Role -> header (or ``#N``, the N-th column) overriding header recognition.
-    through : str or None
-        ``"shunt"`` or ``"series"``: how the part sits in a ``.s2p`` measurement (Touchstone only).
-    """
-
-    shunt: float | None = None
-    reference: float | None = None
-    column_map: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
-    through: str | None = None
 
 
 def read_measurement(path: str | Path, options: ReadOptions | None = None) -> Measurement:
@@ -68,5 +44,4 @@ def read_measurement(path: str | Path, options: ReadOptions | None = None) -> Me
         return read_touchstone(path, options)
     from .text import read_delimited
 
-    return read_delimited(path, shunt=options.shunt, reference=options.reference,
-                          column_map=dict(options.column_map))
+    return read_delimited(path, options)

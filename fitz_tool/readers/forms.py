@@ -22,6 +22,7 @@ amplitude noise and absolute phase noise pass through unchanged and no per-point
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 
 import numpy as np
@@ -33,11 +34,13 @@ from .columns import ColumnPlan
 from .headers import HeaderInfo
 from .lcr import LCR_FORMS, lcr_to_impedance
 
-__all__ = ["AMPLITUDE_ROLES", "unit_label", "convert_columns", "build_impedance"]
+__all__ = ["AMPLITUDE_ROLES", "VOLTAGE_BASES", "unit_label", "understood", "refuse_unknown_unit",
+           "convert_columns", "build_impedance"]
 
 #: Roles whose values are magnitudes (never negative).
 AMPLITUDE_ROLES = ("v_amplitude", "i_amplitude", "z_magnitude", "ratio_magnitude")
-_SI = {"frequency": ("Hz",), "v_amplitude": ("V",), "i_amplitude": ("A", "V"),
+_SI = {"frequency": ("Hz", "rad/s"), "v_amplitude": ("V", "dBV", "dBm"),
+       "i_amplitude": ("A", "dBA", "V", "dBV", "dBm"),
        "z_magnitude": ("ohm", "dBohm"), "z_real": ("ohm",), "z_imag": ("ohm",), "ratio_magnitude": ("dB",),
        "c_series": ("F",),
        "c_parallel": ("F",), "l_series": ("H",), "l_parallel": ("H",), "r_series": ("ohm",),
@@ -46,6 +49,67 @@ _ASSUMED = {"frequency": "Hz", "v_amplitude": "V", "i_amplitude": "A", "z_magnit
             "z_imag": "ohm", "ratio_magnitude": "V/V", "c_series": "F", "c_parallel": "F", "l_series": "H",
             "l_parallel": "H", "r_series": "ohm", "r_parallel": "ohm", "dissipation": "1", "quality": "1"}
 _CONVENTION_WORDS = {"peak": "peak", "rms": "rms", "pp": "peak-to-peak"}
+#: The units understood for each role, in words (for the refusal of a unit not understood).
+UNDERSTOOD = {
+    "frequency": "Hz, kHz, MHz, GHz (any SI prefix) or rad/s",
+    "phase": "deg (or °) or rad",
+    "v_amplitude": "V, mV, uV (any SI prefix) with pk, pp or rms; dBV, dBmV, dBuV; dBm (with "
+                   "--dbm-reference)",
+    "i_amplitude": "A, mA, uA (any SI prefix) with pk, pp or rms; dBA, dBmA, dBuA; or a shunt voltage in V, "
+                   "mV, dBV, dBmV, dBuV or dBm",
+    "ohm": "Ohm, mOhm, kOhm, MOhm (or the ohm sign, any SI prefix)",
+    "z_magnitude": "Ohm, mOhm, kOhm, MOhm (or the ohm sign, any SI prefix) or dBOhm",
+    "ratio_magnitude": "dB or V/V (no unit)",
+    "F": "F with any SI prefix (pF, nF, uF)", "H": "H with any SI prefix (nH, uH, mH)",
+    "dissipation": "no unit or %", "quality": "no unit",
+}
+#: Voltage-level bases: a current column in one of these is the voltage across a shunt.
+VOLTAGE_BASES = ("V", "dBV", "dBm")
+
+
+def understood(role: str) -> str:
+    """The units a role's column may state, in words."""
+    if role.endswith("_phase"):
+        return UNDERSTOOD["phase"]
+    if role in ("z_real", "z_imag", "r_series", "r_parallel"):
+        return UNDERSTOOD["ohm"]
+    if role.startswith(("c_", "l_")):
+        return UNDERSTOOD["F" if role.startswith("c_") else "H"]
+    return UNDERSTOOD.get(role, "SI base units")
+
+
+def refuse_unknown_unit(role: str, info: HeaderInfo, where: str) -> None:
+    """Raise for a column used for ``role`` whose header states a unit fitz_tool does not understand."""
+    if not info.unit_known:
+        raise InputError(f"{where}: column {info.header!r}: unit {info.unit_text!r} is not understood (for "
+                         f"{role}: {understood(role)}); export in one of those units or name another "
+                         f"column with --map")
+
+
+def _level_to_amplitude(role: str, info: HeaderInfo, raw: np.ndarray, dbm_reference: float | None,
+                        where: str) -> tuple[np.ndarray, str]:
+    """A channel level in dB to a peak amplitude in V or A, and the step in words.
+
+    dBV (dBA): dB re 1 V (1 A) rms, x = 10^(L/20) V rms; dBmV, dBuV re 1 mV, 1 uV. dBm: dB re 1 mW into the
+    reference impedance R, V_rms = sqrt(R * 1 mW * 10^(L/10)) (common practice, no source).
+    """
+    label = f"{role} from {info.header!r}"
+    if info.base == "dBm":
+        if dbm_reference is None:
+            raise InputError(f"{where}: column {info.header!r} is a power level in dBm, which needs the "
+                             f"impedance it is referred to: pass --dbm-reference OHMS (e.g. 50)")
+        rms = np.sqrt(dbm_reference * 1e-3 * np.power(10.0, raw / 10.0))
+        return to_peak(rms, "rms"), (f"{label}: dBm re 1 mW into {dbm_reference:g} ohm (--dbm-reference) -> "
+                                     f"V rms = sqrt(R * 1 mW * 10^(dBm/10)) -> peak (x {math.sqrt(2):.6g})")
+    unit = info.base[2:]
+    reference = prefix_factor(info.prefix)
+    convention = info.convention or "rms"
+    values = to_peak(reference * np.power(10.0, raw / 20.0), convention)
+    ref_text = f"1 {info.prefix.replace(chr(0x3bc), 'u').replace(chr(0xb5), 'u')}{unit} {convention}"
+    step = f"{label}: dB re {ref_text} -> {unit} {convention} = {reference:g} x 10^(dB/20)"
+    if convention != "peak":
+        step += f" -> peak (x {to_peak(1.0, convention):.6g})"
+    return values, step
 
 
 def unit_label(role: str, info: HeaderInfo) -> str:
@@ -56,9 +120,11 @@ def unit_label(role: str, info: HeaderInfo) -> str:
     return f"{assumed}{' ' + info.convention if info.convention else ''} (assumed)"
 
 
-def _convert(role: str, info: HeaderInfo, raw: np.ndarray, where: str) -> tuple[np.ndarray, str]:
+def _convert(role: str, info: HeaderInfo, raw: np.ndarray, where: str,
+             dbm_reference: float | None = None) -> tuple[np.ndarray, str]:
     """One column to SI (amplitudes to peak, phases to rad); returns values and the step in words."""
     label = f"{role} from {info.header!r}"
+    refuse_unknown_unit(role, info, where)
     if role.endswith("_phase"):
         unit = info.base or "deg"
         if unit not in ("deg", "rad"):
@@ -77,7 +143,16 @@ def _convert(role: str, info: HeaderInfo, raw: np.ndarray, where: str) -> tuple[
         return db_to_linear(raw), f"{label}: dB re 1 ohm -> ohm (10^(dB/20))"
     if info.base == "%":
         return raw / 100, f"{label}: % -> fraction (x 0.01)"
+    if info.base in ("dBV", "dBA", "dBm"):
+        return _level_to_amplitude(role, info, raw, dbm_reference, where)
+    if info.convention is not None and role not in ("v_amplitude", "i_amplitude"):
+        raise InputError(f"{where}: column {info.header!r} states an amplitude convention "
+                         f"({_CONVENTION_WORDS[info.convention]}), which does not fit {role}; name the "
+                         f"right column with --map")
     factor = prefix_factor(info.prefix)
+    if info.base == "rad/s":
+        return raw * factor / (2 * np.pi), (f"{label}: angular frequency in {info.unit_text} -> Hz "
+                                            f"(x {factor:g} / 2 pi)")
     unit = info.base or allowed[0]
     values = raw * factor
     step = (f"{label}: {unit_label(role, info)} -> {unit} (x {factor:g})" if factor != 1
@@ -94,8 +169,8 @@ def _convert(role: str, info: HeaderInfo, raw: np.ndarray, where: str) -> tuple[
     return values, step
 
 
-def convert_columns(plan: ColumnPlan, raw: Mapping[str, np.ndarray],
-                    where: str) -> tuple[dict[str, np.ndarray], list[str], list[str]]:
+def convert_columns(plan: ColumnPlan, raw: Mapping[str, np.ndarray], where: str,
+                    dbm_reference: float | None = None) -> tuple[dict[str, np.ndarray], list[str], list[str]]:
     """Convert each column of the plan; returns (role -> values, steps, warnings).
 
     Parameters
@@ -106,11 +181,15 @@ def convert_columns(plan: ColumnPlan, raw: Mapping[str, np.ndarray],
         Role -> numbers as read (NaN where missing).
     where : str
         File name for messages.
+    dbm_reference : float or None
+        Impedance in ohm that dBm levels are referred to (``--dbm-reference``).
     """
     values, steps, warnings = {}, [], []
     for role, info in plan.columns.items():
-        values[role], step = _convert(role, info, np.asarray(raw[role], dtype=float), where)
+        values[role], step = _convert(role, info, np.asarray(raw[role], dtype=float), where, dbm_reference)
         steps.append(step)
+    if dbm_reference is not None and not any(i.base == "dBm" for i in plan.columns.values()):
+        warnings.append(f"--dbm-reference {dbm_reference:g} ignored: no column used is in dBm")
     v, i = plan.columns.get("v_amplitude"), plan.columns.get("i_amplitude")
     if v is not None and i is not None and (v.convention is None) != (i.convention is None):
         stated, unstated = (v, i) if v.convention else (i, v)
@@ -171,7 +250,7 @@ def build_impedance(plan: ColumnPlan, values: Mapping[str, np.ndarray], shunt: f
         i_info = plan.columns["i_amplitude"]
         current = values["i_amplitude"]
         form = "v_i_phasors"
-        if i_info.base == "V":
+        if i_info.base in VOLTAGE_BASES:
             if shunt is None:
                 raise InputError(f"{where}: column {i_info.header!r} is a voltage, so the current was "
                                  f"measured across a shunt: pass --shunt OHMS (its resistance)")

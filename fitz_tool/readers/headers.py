@@ -1,12 +1,13 @@
 """Reading one column header: what quantity it names, in which unit and amplitude convention.
 
-A header splits into a *name* and a *unit*. The unit is taken from, in this order: the last bracket group that
-reads as a unit (``"Frequency (kHz)"``, ``"f [MHz]"``, ``"V(DUT) (mV rms)"``), a ``/unit`` suffix
-(``"Frequency/Hz"``), or a last ``_``/space separated token of two or more letters (``"freq_hz"``,
-``"phase deg"``). A unit is an optional SI prefix (``u``, ``µ`` and ``μ`` all micro; ``m`` milli,
-``M`` mega), a base unit (Hz, V, A, ohm/Ω, deg/°, rad, dB, dBohm/dBΩ, V/V, F, H, %) and an optional
-amplitude convention (rms, pp/p-p/pk-pk, pk/peak). ``F`` and ``H`` count only in capitals (``f`` is a
-frequency, ``h`` a transfer function).
+A header splits into a *name* and a *unit* (``_split_unit``). The unit is taken from, in this order: the last
+bracket group that is not part of the name (``"Frequency (kHz)"``, ``"f [MHz]"``, ``"V(DUT) (mV rms)"``,
+nested ``"Voltage [mV(rms)]"``), a ``/unit`` suffix (``"Frequency/Hz"``), or the last one to three words after
+a space or underscore (``"freq_hz"``, ``"V mV pp"``, ``"Shunt voltage_V"``). The unit grammar is
+``units.read_unit`` (SI prefixes on Hz, rad/s, V, A, ohm, F, H; deg, rad, %, dB, dBV/dBA levels, dBm, dBOhm;
+an amplitude convention before or after). A bracketed word that is neither a unit nor part of a name
+(``"(furlongs)"``) is kept as a unit *not understood*: a column used for a role is then refused, never read
+in an assumed unit. ``F`` and ``H`` count only in capitals (``f`` is a frequency, ``h`` a transfer function).
 
 The name gives a *kind* (frequency, amplitude, phase, real, imaginary, or one of the equivalent-circuit
 readings of an LCR meter: Cs, Ls, Cp, Lp, Rp, D, Q) and a *subject* (voltage across the part, current,
@@ -22,16 +23,10 @@ import re
 import unicodedata
 from dataclasses import dataclass
 
+from ..units import read_unit
+
 __all__ = ["HeaderInfo", "VectorName", "parse_header", "parse_unit", "parse_vector_name"]
 
-_PREFIX = r"(?P<prefix>meg|[fpnuµμmkKMGT])?"
-_BASE = (r"(?P<base>(?i:hz|v/v|db\(?(?:ohms?|Ω)\)?|ohms?|Ω|degrees?|deg|°|radians?|rad|db|v|a)|F|H|%)?")
-_CONVENTION = (r"(?P<conv>(?i:rms|peak-to-peak|peaktopeak|pk-pk|pkpk|p-p|pp|ptp|peak|pk))?")
-_UNIT = re.compile(_PREFIX + _BASE + _CONVENTION)
-
-_BASES = {"hz": "Hz", "v/v": "", "ohm": "ohm", "ohms": "ohm", "ω": "ohm", "deg": "deg", "degree": "deg",
-          "degrees": "deg", "°": "deg", "rad": "rad", "radian": "rad", "radians": "rad", "db": "dB",
-          "v": "V", "a": "A", "dbohm": "dBohm", "f": "F", "h": "H", "%": "%"}
 _CONVENTIONS = {"rms": "rms", "peak-to-peak": "pp", "peaktopeak": "pp", "pk-pk": "pp", "pkpk": "pp",
                 "p-p": "pp", "pp": "pp", "ptp": "pp", "peak": "peak", "pk": "peak"}
 
@@ -99,6 +94,9 @@ class HeaderInfo:
         True for headers like ``"-Im(Z)"`` / ``"-Z''"`` that hold the negative of the quantity.
     subject_from_unit : bool
         True when only the unit gave the subject (``"Mag (dB)"`` is a ratio because of ``dB``).
+    unit_known : bool
+        False when the header states a unit fitz_tool does not understand (``unit_text`` holds it); a
+        column used for a role is then refused, never read in an assumed unit.
     """
 
     header: str
@@ -112,48 +110,91 @@ class HeaderInfo:
     group: str | None
     negated: bool
     subject_from_unit: bool = False
+    unit_known: bool = True
 
 
 def parse_unit(text: str) -> tuple[str, str, str | None] | None:
-    """Read a unit such as ``"kHz"``, ``"mV rms"``, ``"Vpp"``, ``"kΩ"``, ``"°"``; None if it is not a unit.
+    """Read a unit such as ``"kHz"``, ``"mV rms"``, ``"Vpp"``, ``"kΩ"``, ``"°"``, ``"dBuV"``.
+
+    None if it is not one fitz_tool understands (see ``units.read_unit``).
 
     Returns ``(prefix, base, convention)``; ``base`` is ``""`` for a linear ratio (``V/V``) or a convention
     alone.
     """
-    compact = re.sub(r"[\s_]+", "", unicodedata.normalize("NFKC", text))
-    if not compact:
-        return None
-    match = _UNIT.fullmatch(compact)
-    if match is None:
-        return None
-    prefix, base, conv = match.group("prefix") or "", match.group("base"), match.group("conv")
-    if base is None and (prefix or conv is None):
-        return None
-    if base is not None and base.lower().startswith("db") and len(base) > 2:
-        base = "dbohm"
-    if base is not None and base.lower() in ("db", "dbohm", "deg", "degree", "degrees", "°", "rad", "radian",
-                                             "radians", "%") and prefix:
-        return None  # no "kdeg"/"mdB": not a unit we read
-    if base is not None and base.lower() == "hz" and prefix == "m" and base == "hz":
-        prefix = "M"  # all-lowercase "mhz" (as in freq_mhz) means megahertz; "mHz" stays milli
-    return prefix, _BASES.get(base.lower(), "") if base else "", _CONVENTIONS[conv.lower()] if conv else None
+    return read_unit(text)
 
 
-def _split_unit(text: str) -> tuple[str, str]:
-    """Split a header into (name, unit text)."""
-    for match in reversed(list(re.finditer(r"[(\[{]([^()\[\]{}]*)[)\]}]", text))):
-        if parse_unit(match.group(1)) is not None:
-            return (text[:match.start()] + " " + text[match.end():]).strip(), match.group(1).strip()
+#: Words directly followed by a bracket that holds their argument, not a unit: ``V(DUT)``, ``u(|Z|)``.
+_FUNCTIONS = {"v", "i", "u", "z", "x", "r", "re", "im", "real", "imag", "abs", "mag", "arg", "angle", "ph",
+              "phase", "sigma", "σ", "std", "unc", "db", "vm", "vp", "vr", "vi", "vdb", "ip", "ir", "ii",
+              "idb", "cph", "ch", "channel", "input", "trace", "tr"}
+_CHANNEL_WORDS = {"ch", "chan", "channel", "input", "in", "trace", "tr"}
+
+
+def _is_name_text(text: str) -> bool:
+    """Whether bracketed text reads as part of a name (``DUT``, ``Ch1``, ``V-I``, ``shunt``), not a unit."""
+    tokens, group, _ = _tokens(text)
+    if not tokens:
+        return group is not None or bool(re.fullmatch(r"[\s|'\-+]*", text))
+    return all(t in _KNOWN or t.rstrip("0123456789") in VOLTAGE | CURRENT or t.isdigit() for t in tokens)
+
+
+def _groups(text: str) -> list[tuple[int, int, bool]]:
+    """Top-level bracket groups as (start, end, attached to the word before); nesting allowed."""
+    groups, depth, start = [], 0, 0
+    for k, char in enumerate(text):
+        if char in "([{":
+            if depth == 0:
+                start = k
+            depth += 1
+        elif char in ")]}" and depth:
+            depth -= 1
+            if depth == 0:
+                groups.append((start, k + 1, start > 0 and not text[start - 1].isspace()))
+    return groups
+
+
+def _split_unit(text: str) -> tuple[str, str, bool]:
+    """Split a header into (name, unit text, whether the unit is understood).
+
+    A unit stands in the last bracket group that is not part of the name (``"Frequency (kHz)"``,
+    ``"V [mV(rms)]"``), after a ``/`` (``"Frequency/Hz"``), or in the last one to three words after a space or
+    underscore (``"V mV pp"``, ``"Shunt voltage_V"``). A bracket group that is neither a unit fitz_tool
+    understands nor part of a name (``"(furlongs)"``, ``"[rpm]"``) is returned as a unit not understood, as
+    is an unknown last word after an underscore (``"freq_furlongs"``): the caller refuses it if the column
+    is used.
+    """
+    for start, end, attached in reversed(_groups(text)):
+        content = text[start + 1:end - 1].strip()
+        name = (text[:start] + " " + text[end:]).strip()
+        if parse_unit(content) is not None:
+            return name, content, True
+        before = re.findall(r"[^\W\d_]+$", text[:start])
+        if _is_name_text(content) or (attached and text[start] != "[" and before
+                                      and before[0].lower() in _FUNCTIONS):
+            continue
+        return name, content, False
     if "/" in text:
         left, right = text.rsplit("/", 1)
         last = re.split(r"[\s_]+", left.strip())[-1] if left.strip() else ""
         unit = parse_unit(right)
         if last and unit is not None and unit[1] and (len(last) > 1 or parse_unit(text) is None):
-            return left.strip(), right.strip()
+            return left.strip(), right.strip(), True
     tokens = re.split(r"([\s_]+)", text.strip())
-    if len(tokens) >= 3 and len(tokens[-1]) >= 2 and parse_unit(tokens[-1]) is not None:
-        return "".join(tokens[:-2]).strip(), tokens[-1]
-    return text.strip(), ""
+    words, separators = tokens[0::2], tokens[1::2]
+    for size in (3, 2, 1):
+        if len(words) <= size:
+            continue
+        suffix = words[-size:]
+        if len(suffix[0]) == 1 and ("_" not in separators[-size]
+                                    or words[-size - 1].lower() in _CHANNEL_WORDS):
+            continue
+        if parse_unit(" ".join(suffix)) is not None:
+            return "".join(tokens[:2 * (len(words) - size) - 1]).strip(), " ".join(suffix), True
+    if (len(words) >= 2 and "_" in separators[-1] and len(words[-1]) >= 2 and words[-1].isalpha()
+            and words[-2].lower() not in _CHANNEL_WORDS and not _is_name_text(words[-1])):
+        return "".join(tokens[:-2]).strip(), words[-1], False
+    return text.strip(), "", True
 
 
 def _tokens(name: str) -> tuple[list[str], str | None, bool]:
@@ -202,9 +243,9 @@ def _classify(tokens: list[str], base: str) -> tuple[str | None, str | None, str
         subjects.discard("voltage")
     if kinds & {"real", "imag"}:
         subjects.add("impedance")
-    unit_kind = {"Hz": "frequency", "deg": "phase", "rad": "phase"}.get(base)
-    unit_subject = {"A": "current", "ohm": "impedance", "dBohm": "impedance", "dB": "ratio",
-                    "V": "voltage"}.get(base)
+    unit_kind = {"Hz": "frequency", "rad/s": "frequency", "deg": "phase", "rad": "phase"}.get(base)
+    unit_subject = {"A": "current", "dBA": "current", "ohm": "impedance", "dBohm": "impedance", "dB": "ratio",
+                    "dBV": "voltage", "dBm": "voltage", "V": "voltage"}.get(base)
     if unit_kind and not unknown:  # "RBW (Hz)" or "Temp (deg)" are not ours
         kinds.add(unit_kind)
     if unit_subject and not unknown and not subjects and kinds <= {"amplitude", "real", "imag", "phase"}:
@@ -303,10 +344,10 @@ def parse_header(header: str, index: int) -> HeaderInfo:
     clean = unicodedata.normalize("NFKC", header).strip().lstrip("#!").strip()
     if len(clean) >= 2 and clean[0] == clean[-1] and clean[0] in "\"'":
         clean = clean[1:-1].strip()
-    name, unit_text = _split_unit(clean)
-    prefix, base, convention = parse_unit(unit_text) if unit_text else ("", "", None)
+    name, unit_text, unit_known = _split_unit(clean)
+    prefix, base, convention = parse_unit(unit_text) if unit_text and unit_known else ("", "", None)
     tokens, group, negated = _tokens(name)
     kind, subject, named_convention, from_unit = _classify(tokens, base)
     return HeaderInfo(header=header, index=index, unit_text=unit_text, prefix=prefix, base=base,
                       convention=convention or named_convention, kind=kind, subject=subject, group=group,
-                      negated=negated, subject_from_unit=from_unit)
+                      negated=negated, subject_from_unit=from_unit, unit_known=unit_known)

@@ -30,8 +30,16 @@ from ..units import prefix_factor
 from .columns import plan_columns
 from .complex_form import complex_to_impedance
 from .delimited import decode_bytes, numeric_column, split_table
-from .forms import AMPLITUDE_ROLES, build_impedance, convert_columns, unit_label
+from .forms import (
+    AMPLITUDE_ROLES,
+    build_impedance,
+    convert_columns,
+    refuse_unknown_unit,
+    understood,
+    unit_label,
+)
 from .headers import parse_header
+from .options import ReadOptions
 from .simulator import ComplexTable, find_simulator_table, vector_table
 from .status import check_status
 
@@ -93,7 +101,11 @@ def _from_simulator(table: ComplexTable, column_map: dict[str, str], shunt: floa
     if info.kind != "frequency" and "frequency" not in column_map:
         raise InputError(f"{where}: the first column {table.frequency_header!r} does not read as frequency; "
                          f"if it is, pass --map frequency='{table.frequency_header}'")
-    factor = prefix_factor(info.prefix) if info.base == "Hz" else 1.0
+    refuse_unknown_unit("frequency", info, where)
+    if info.base not in ("", "Hz", "rad/s"):
+        raise InputError(f"{where}: column {table.frequency_header!r} is in {info.unit_text!r}, which is "
+                         f"not a frequency unit ({understood('frequency')})")
+    factor = prefix_factor(info.prefix) / (2 * np.pi if info.base == "rad/s" else 1.0)
     frequency = table.frequency * factor
     steps.append(f"frequency from {table.frequency_header!r}: in {info.unit_text or 'Hz (assumed)'}"
                  f"{f' (x {factor:g})' if factor != 1 else ''}")
@@ -107,20 +119,17 @@ def _from_simulator(table: ComplexTable, column_map: dict[str, str], shunt: floa
     return frequency, z, lines, columns, units, steps, warnings
 
 
-def read_delimited(path: str | Path, shunt: float | None = None, reference: float | None = None,
-                   column_map: dict[str, str] | None = None) -> Measurement:
+def read_delimited(path: str | Path, options: ReadOptions | None = None) -> Measurement:
     """Read a delimited text export (any of the five forms) into a Measurement.
 
     Parameters
     ----------
     path : str or Path
         The bench file; never modified.
-    shunt : float or None
-        Series shunt resistance in ohm, needed when the current column is a voltage.
-    reference : float or None
-        Reference resistance in ohm, needed for a transfer-ratio file.
-    column_map : dict of str to str or None
-        Role -> header (or ``#N``) overriding header recognition.
+    options : ReadOptions or None
+        ``shunt`` (ohm, needed when the current column is a voltage), ``reference`` (ohm, for a
+        transfer-ratio file), ``column_map`` (role -> header or ``#N``) and ``dbm_reference`` (ohm, for
+        levels in dBm).
 
     Returns
     -------
@@ -134,8 +143,14 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
         Unreadable file, unrecognized or ambiguous columns, bad cells (line and column named), missing
         ``--shunt``/``--reference``, or no usable row.
     """
+    options = options if options is not None else ReadOptions()
+    shunt, reference, column_map = options.shunt, options.reference, dict(options.column_map)
     path = Path(path)
     where = str(path)
+    if options.dbm_reference is not None and not (np.isfinite(options.dbm_reference)
+                                                  and options.dbm_reference > 0):
+        raise InputError(f"{where}: --dbm-reference {options.dbm_reference!r}: must be an impedance above 0 "
+                         f"ohm, e.g. 50")
     try:
         raw = path.read_bytes()
     except OSError as exc:
@@ -164,7 +179,7 @@ def read_delimited(path: str | Path, shunt: float | None = None, reference: floa
     _drop(keep, status.bad, f"marked as not valid in the status column {status.status_header!r}", lines,
           warnings)
     numbers = {role: numeric_column(table, info.index, where, keep) for role, info in plan.columns.items()}
-    values, convert_steps, convert_warnings = convert_columns(plan, numbers, where)
+    values, convert_steps, convert_warnings = convert_columns(plan, numbers, where, options.dbm_reference)
     steps += convert_steps
     warnings += convert_warnings
 
