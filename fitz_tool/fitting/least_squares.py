@@ -29,11 +29,19 @@ from ..measurement import Measurement
 from ..presets import resolve_model
 from ..results import FitResult
 from .assessment import INTERVAL_MODES, assess, residual_structure
-from .problem import FitProblem, problem_for
+from .problem import FitProblem, decimated, problem_for
+from .resonances import resonance_intervals, resonance_starts
+from .scatter import FAR_ABOVE_SCATTER, scatter_sigma
 from .seeding import data_seed, global_search, refine_by_scans, search_ranges
 
-__all__ = ["fit", "BOUND_DECADES"]
+__all__ = ["fit", "BOUND_DECADES", "SCATTER_FLAG", "far_above_scatter"]
 
+#: Opening words of the flag for residuals far above the data's own scatter.
+SCATTER_FLAG = "residuals far above the noise"
+#: Points the global stages rank candidates on (the polish always uses every point).
+SEARCH_POINTS = 400
+#: Resonance-seeded candidates polished by a local fit.
+RESONANCE_POLISH = 4
 #: Decades beyond the search box that the hard bounds of a log-scaled parameter allow.
 BOUND_DECADES = 6.0
 
@@ -181,36 +189,103 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
         if name in guesses and not b_lo[i] <= x0[i] <= b_hi[i]:
             raise InputError(f"guess {name}={guesses[name]:g} lies outside its bounds")
     scale_covar = not measurement.sigma_absolute
-    out, stage = _local_fit(problem, x0, b_lo, b_hi, scale_covar), "from the data-derived seed"
-    scan = np.array([n not in guesses for n in free])
-    if not _converged_well(problem, out) and scan.any():
-        x0[scan] = refine_by_scans(_Subproblem(problem, x0, scan), x0[scan], lo[scan], hi[scan])
-        trial = _local_fit(problem, x0, b_lo, b_hi, scale_covar)
-        if trial.chisqr < out.chisqr:
-            out, stage = trial, "from the data-derived seed refined by parameter scans"
-    if not _converged_well(problem, out):
-        x_global = global_search(problem, lo, hi, b_lo, b_hi, starts=[x0, _vector(out)])
-        trial = _local_fit(problem, x_global, b_lo, b_hi, scale_covar)
-        if trial.chisqr < out.chisqr * (1 - 1e-9):
-            out, stage = trial, "after a global search (the seeded fit left structured residuals)"
-        else:
-            stage = "from the data-derived seed (a global search found nothing better)"
+    out, stage = _search(problem, x0, (lo, hi), (b_lo, b_hi), scale_covar,
+                         np.array([n not in guesses for n in free]))
     result = assess(problem, measurement, out, (b_lo, b_hi), scale_covar, stage, intervals=intervals,
                     user_bounded=frozenset(bounds),
                     refit=lambda x: _local_fit(problem, x, b_lo, b_hi, scale_covar))
-    return replace(result, flags=result.flags + circuit.notes) if circuit.notes else result
+    extra = list(circuit.notes)
+    ratio = far_above_scatter(problem, result.chi_square, _scatter(problem))
+    if ratio is not None:
+        extra.append(f"{SCATTER_FLAG}: the residuals are {ratio:.0f} times the point-to-point scatter of the "
+                     "data; the fit may have stopped at a local minimum, or the model misses part of the "
+                     "response, and the uncertainties shown do not cover that")
+    return replace(result, flags=result.flags + tuple(extra)) if extra else result
 
 
 def _vector(out: lmfit.minimizer.MinimizerResult) -> np.ndarray:
     return np.array([p.value for p in out.params.values()])
 
 
-def _converged_well(problem: FitProblem, out: lmfit.minimizer.MinimizerResult) -> bool:
-    """Accept the seeded fit when it succeeded and its residuals look like noise."""
+def _scatter(problem: FitProblem) -> float | None:
+    """Point-to-point scatter of the weighted data (see :mod:`fitz_tool.fitting.scatter`)."""
+    return scatter_sigma(np.log(np.abs(problem.impedance)) * problem.weight_lnmag,
+                         np.unwrap(np.angle(problem.impedance)) * problem.weight_phase)
+
+
+def far_above_scatter(problem: FitProblem, chi_square: float, scatter: float | None) -> float | None:
+    """Residual RMS / data scatter when it exceeds FAR_ABOVE_SCATTER (the fit misses the data), else None."""
+    if scatter is None:
+        return None
+    rms = float(np.sqrt(chi_square / (2 * problem.frequency.size)))
+    floor = 1e-7 * float(np.median(np.concatenate([problem.weight_lnmag, problem.weight_phase])))
+    ratio = rms / max(scatter, floor)
+    return ratio if ratio > FAR_ABOVE_SCATTER else None
+
+
+def _converged_well(problem: FitProblem, out: lmfit.minimizer.MinimizerResult, scatter: float | None) -> bool:
+    """Accept a fit when it succeeded, its residuals look like noise and stay near the data's scatter."""
     if not out.success:
         return False
     m = problem.frequency.size
-    return residual_structure(out.residual[:m], out.residual[m:]) is None
+    return (residual_structure(out.residual[:m], out.residual[m:]) is None
+            and far_above_scatter(problem, out.chisqr, scatter) is None)
+
+
+def _search(problem: FitProblem, x0: np.ndarray, box: tuple[np.ndarray, np.ndarray],
+            bounds: tuple[np.ndarray, np.ndarray], scale_covar: bool, scan: np.ndarray):
+    """The fit from the seed, then cheaper-first global stages until the residuals look like noise.
+
+    Stages: the seeded local fit; coordinate scans of the parameters without a user guess; starting points at
+    every resonance the data show (:mod:`fitz_tool.fitting.resonances`); a Sobol global search. The global
+    stages rank candidates on at most ``SEARCH_POINTS`` points (a decimated sweep that keeps every point
+    beside a resonance) and polish on all points. Returns the best local fit and a sentence on how it was
+    reached.
+    """
+    (lo, hi), (b_lo, b_hi) = box, bounds
+    scatter = _scatter(problem)
+    coarse = decimated(problem, SEARCH_POINTS)
+
+    def local(x):
+        return _local_fit(problem, x, b_lo, b_hi, scale_covar)
+
+    out, stage = local(x0), "from the data-derived seed"
+    if _converged_well(problem, out, scatter):
+        return out, stage
+    if scan.any():
+        x = x0.copy()
+        x[scan] = refine_by_scans(_Subproblem(coarse, x0, scan), x0[scan], lo[scan], hi[scan])
+        trial = local(x)
+        if trial.chisqr < out.chisqr:
+            out, stage = trial, "from the data-derived seed refined by parameter scans"
+        if _converged_well(problem, out, scatter):
+            return out, stage
+    intervals = resonance_intervals(problem.frequency, problem.impedance)
+    if intervals:
+        candidates = np.vstack([resonance_starts(problem, base, intervals) for base in (x0, _vector(out))])
+        for x in _best_distinct(coarse, candidates, RESONANCE_POLISH):
+            trial = local(x)
+            if trial.chisqr < out.chisqr * (1 - 1e-9):
+                out, stage = trial, "from starting points at the resonances seen in the data"
+        if _converged_well(problem, out, scatter):
+            return out, stage
+    x_global = global_search(coarse, lo, hi, b_lo, b_hi, starts=[x0, _vector(out)])
+    trial = local(x_global)
+    if trial.chisqr < out.chisqr * (1 - 1e-9):
+        return trial, "after a global search (the seeded fit left residuals above the noise)"
+    return out, f"{stage} (a global search found nothing better)"
+
+
+def _best_distinct(problem: FitProblem, candidates: np.ndarray, count: int) -> list[np.ndarray]:
+    """The ``count`` lowest-cost candidates that differ from each other by more than 0.01 decade."""
+    cost = problem.batch_cost(candidates)
+    chosen: list[np.ndarray] = []
+    for j in np.argsort(cost):
+        if len(chosen) >= count or not np.isfinite(cost[j]):
+            break
+        if all(np.max(np.abs(candidates[j] - c)) > 0.01 for c in chosen):
+            chosen.append(candidates[j])
+    return chosen
 
 
 @dataclass(frozen=True)

@@ -17,9 +17,11 @@ import numpy as np
 from ..circuit import Circuit
 from ..measurement import Measurement
 
-__all__ = ["FitProblem", "problem_for"]
+__all__ = ["FitProblem", "problem_for", "decimated", "BATCH_ELEMENTS"]
 
 _LN10 = float(np.log(10.0))
+#: Largest number of complex values (candidates x points) a batch evaluation holds at once (bounds memory).
+BATCH_ELEMENTS = 2_000_000
 
 
 @dataclass(frozen=True)
@@ -69,11 +71,17 @@ class FitProblem:
         return np.nan_to_num(np.column_stack(columns))
 
     def batch_cost(self, points: np.ndarray) -> np.ndarray:
-        """Sum of squared residuals for each row of ``points`` (K, k), evaluated at once (inf if invalid)."""
+        """Sum of squared residuals for each row of ``points`` (K, k), in chunks of at most
+        ``BATCH_ELEMENTS`` complex values (inf where the model is not finite)."""
+        points = np.atleast_2d(points)
+        step = max(1, BATCH_ELEMENTS // max(1, self.frequency.size))
+        cost = np.empty(len(points))
         with np.errstate(all="ignore"):
-            z = self.circuit.impedance(self.frequency, self.values(np.atleast_2d(points)))
-            re, im = self._weighted(np.atleast_2d(z))
-            cost = np.sum(re**2 + im**2, axis=-1)
+            for start in range(0, len(points), step):
+                chunk = points[start:start + step]
+                z = self.circuit.impedance(self.frequency, self.values(chunk))
+                re, im = self._weighted(np.atleast_2d(z))
+                cost[start:start + step] = np.sum(re**2 + im**2, axis=-1)
         return np.where(np.isfinite(cost), cost, np.inf)
 
 
@@ -88,3 +96,25 @@ def problem_for(circuit: Circuit, m: Measurement, free: tuple[str, ...],
         weight_phase=ones if m.sigma_phase is None else 1.0 / m.sigma_phase,
         free=free, exponent=np.array([circuit.parameter_is_exponent(n) for n in free], dtype=bool),
         fixed=dict(fixed))
+
+
+def decimated(problem: FitProblem, points: int) -> FitProblem:
+    """The same problem on at most about ``points`` points: evenly spaced indices plus both neighbours of
+    every sign change of X and every sampled |Z| extremum, so that narrow resonances keep their samples."""
+    n = problem.frequency.size
+    if n <= points:
+        return problem
+    z = problem.impedance
+    x, mag = z.imag, np.abs(z)
+    keep = set(np.linspace(0, n - 1, points).round().astype(int).tolist())
+    crossings = np.flatnonzero(np.sign(x[:-1]) * np.sign(x[1:]) < 0)
+    inner = np.arange(1, n - 1)
+    extrema = inner[((mag[inner] > mag[inner - 1]) & (mag[inner] > mag[inner + 1]))
+                    | ((mag[inner] < mag[inner - 1]) & (mag[inner] < mag[inner + 1]))]
+    if crossings.size + extrema.size <= points:  # noise makes many tiny extrema: then trust the even spacing
+        for k in np.concatenate([crossings, crossings + 1, extrema - 1, extrema, extrema + 1]):
+            keep.add(int(k))
+    index = np.array(sorted(keep))
+    return FitProblem(problem.circuit, problem.frequency[index], problem.impedance[index],
+                      problem.weight_lnmag[index], problem.weight_phase[index], problem.free,
+                      problem.exponent, problem.fixed)

@@ -25,7 +25,7 @@ from ..exceptions import FitError
 from ..measurement import Measurement
 from ..presets import default_candidates, resolve_model
 from ..results import FitResult, ModelSelection, RankedModel
-from .least_squares import fit
+from .least_squares import SCATTER_FLAG, fit
 
 __all__ = ["fit_auto", "is_adequate", "BIC_MARGIN"]
 
@@ -44,6 +44,8 @@ def is_adequate(result: FitResult) -> tuple[bool, str]:
         problems.append("did not converge")
     if any("systematic structure" in flag for flag in result.flags):
         problems.append("residuals show systematic structure")
+    if any(flag.startswith(SCATTER_FLAG) for flag in result.flags):
+        problems.append("residuals far above the data's scatter")
     for p in result.parameters.values():
         if not p.vary:
             continue
