@@ -303,8 +303,12 @@ def uncertainty_budget(result: FitResult, inputs: BudgetInputs | None = None, at
     parameters = {}
     for name, p in result.parameters.items():
         if p.vary:
+            note = p.stderr_note if p.stderr is None else ""
+            if p.stderr is not None and p.interval is not None:
+                note = ("the noise part is the first-order standard error; the fit flags it and gives a 68 % "
+                        "profile-likelihood interval, the better noise figure for this parameter")
             parameters[name] = _entry(name, "fitted parameter", p.value, p.unit, p.stderr, nu_a,
-                                      p_signed[name], p.stderr_note if p.stderr is None else "")
+                                      p_signed[name], note)
     design = {key: _entry(key, v.label, v.value, v.unit, v.stderr, nu_a, d_signed[key],
                           v.note if v.stderr is None else "")
               for key, v in items.items() if math.isfinite(v.value)}

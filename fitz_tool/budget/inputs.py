@@ -15,6 +15,12 @@ an input value ``t`` shifts ``ln Z`` at frequency f by ``t * shape(f)`` (phase-l
   scales Z by ``(1 + e)``;
 - channel skew (s): an error ``e`` in the delay removed leaves a phase error ``-2 pi f e``.
 
+Where the limits apply. They act on the impedance the fit sees, i.e. after every correction (skew, open/short,
+load): state the accuracy of the corrected impedance, e.g. an analyzer's specification after its own
+compensation. A common scale or phase factor passes through open/short compensation unchanged (it scales the
+part and the standards alike), and with a load standard it cancels altogether, leaving the load's stated value
+(``load_tolerance``) and the instrument's residual errors.
+
 An accuracy table gives limits that vary with frequency; they are interpolated linearly in log frequency and
 the offset is still one input quantity: ``t`` (a fraction in [-1, 1] of the local limit) is common to all
 points, i.e. the error is taken as fully correlated across the sweep, the usual conservative reading of one

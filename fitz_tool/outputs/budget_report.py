@@ -108,6 +108,8 @@ def budget_lines(budget: Budget) -> list[str]:
         if e.u_combined is None:
             continue
         lines += _table(_rows(e), HEADER)
+        if e.note:
+            lines.append(f"    note: {e.note}")
         if e.dominant:
             lines.append(f"    {e.dominant}; {e.advice}")
         if e.monte_carlo is not None:
@@ -134,6 +136,8 @@ def budget_html(budget: Budget) -> str:
         body = "".join("<tr>" + "".join((_NUM_TD if i else "<td>") + f"{escape(c)}</td>"
                                         for i, c in enumerate(r)) + "</tr>" for r in _rows(e))
         parts.append(f"<table><tr>{head}</tr>{body}</table>")
+        if e.note:
+            parts.append(f"<p>Note: {escape(e.note)}.</p>")
         if e.dominant:
             parts.append(f"<p>{escape(e.dominant)}; {escape(e.advice)}.</p>")
         if e.monte_carlo is not None:
