@@ -318,7 +318,28 @@ def _constraints(args) -> dict:
 
 
 def _fit_targets(args) -> list[str]:
-    return [p for p in (args.json, args.curve, args.spice, args.report) if p]
+    return [p for p in (args.json, args.curve, args.spice, args.report, args.touchstone) if p]
+
+
+def _curve_band(text: str):
+    """``"1M:3G:401"`` -> 401 log-spaced frequencies in Hz (``--curve-band``)."""
+    from .outputs.touchstone import curve_frequencies
+
+    parts = text.split(":")
+    if len(parts) != 3:
+        raise InputError(f"--curve-band {text!r}: expected FMIN:FMAX:POINTS, e.g. 1M:3G:401")
+    fmin = check_frequency(parse_quantity(parts[0], "Hz", "--curve-band minimum"), "--curve-band minimum")
+    fmax = check_frequency(parse_quantity(parts[1], "Hz", "--curve-band maximum"), "--curve-band maximum")
+    if not parts[2].strip().isdigit() or not 2 <= int(parts[2]) <= 100_000:
+        raise InputError(f"--curve-band {text!r}: POINTS must be a whole number from 2 to 100000")
+    return curve_frequencies(fmin, fmax, int(parts[2]))
+
+
+def _touchstone_output(args, result) -> str:
+    from .outputs.touchstone import to_touchstone
+
+    frequency = _curve_band(args.curve_band) if args.curve_band else None
+    return to_touchstone(result, args.touchstone, frequency, through=args.through)
 
 
 def _cmd_fit(args) -> int:
@@ -332,6 +353,17 @@ def _cmd_fit(args) -> int:
 
     check_expression(args.model)
     at = [check_frequency(parse_quantity(a, "Hz", "--at"), "--at") for a in args.at]
+    if args.curve_band and not args.touchstone:
+        raise InputError("--curve-band sets the frequencies of the --touchstone export; "
+                         "give --touchstone too")
+    if args.curve_band:
+        _curve_band(args.curve_band)
+    if args.touchstone and Path(args.touchstone).suffix.lower() not in (".s1p", ".s2p"):
+        raise OutputError(f"--touchstone {args.touchstone}: name the file .s1p (reflection) or .s2p "
+                          f"(through line)")
+    if args.touchstone and Path(args.touchstone).suffix.lower() == ".s2p" and not args.through:
+        raise InputError(f"--touchstone {args.touchstone}: a .s2p export needs --through series or shunt "
+                         f"(how the part sits in the line); or name it .s1p for the reflection")
     constraints = _constraints(args)
     limits = budget_inputs_from_args(args)
     check_targets(_fit_targets(args), [args.file, *_standard_files(args),
@@ -365,6 +397,8 @@ def _cmd_fit(args) -> int:
         from .outputs.spice import to_spice_subcircuit
 
         outputs[args.spice] = to_spice_subcircuit(result, name=args.subckt_name)
+    if args.touchstone:
+        outputs[args.touchstone] = _touchstone_output(args, result)
     figures = {}
     if args.plot_dir or args.report:
         from .outputs.plots import fit_figures
@@ -565,6 +599,12 @@ def build_parser() -> argparse.ArgumentParser:
     out.add_argument("--subckt-name", default="FITTED_PART", metavar="NAME", help="subcircuit name")
     out.add_argument("--plot-dir", metavar="DIR", help="write PNG and SVG plots into DIR")
     out.add_argument("--report", metavar="OUT.html", help="self-contained HTML report")
+    out.add_argument("--touchstone", metavar="OUT.s1p|OUT.s2p",
+                     help="the model as Touchstone (scikit-rf, 50 ohm reference): .s1p reflection, or .s2p "
+                          "through line as --through says")
+    out.add_argument("--curve-band", metavar="FMIN:FMAX:POINTS",
+                     help="frequencies of the --touchstone export, log-spaced (default: the measured ones), "
+                          "e.g. 1M:3G:401")
     fitp.set_defaults(handler=_cmd_fit)
 
     models = commands.add_parser("models", help="list the named starting topologies")

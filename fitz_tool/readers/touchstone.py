@@ -156,7 +156,7 @@ def _check_layout(path: Path, text: str, nports: int) -> None:
     option_seen = False
     rows = 0
     pending: list[str] = []
-    start = 0
+    start = end = 0
     last_frequency = -math.inf
     lines = text.splitlines()
     for number, raw in enumerate(lines, 1):
@@ -178,7 +178,7 @@ def _check_layout(path: Path, text: str, nports: int) -> None:
             if not _is_number(token) or not math.isfinite(float(token)):
                 raise InputError(f"{path}: row {number}, column {column}: {token!r} is not a finite number")
         if pending and len(tokens) % 2:  # a continuation holds value pairs only: the row above is short
-            _row_error(path, lines, start, start, len(pending), nports)
+            _row_error(path, lines, start, end, len(pending), nports)
         if not pending:
             noise_row = (nports == 2 and len(tokens) == 5 and rows > 0
                          and float(tokens[0]) <= last_frequency)
@@ -186,6 +186,7 @@ def _check_layout(path: Path, text: str, nports: int) -> None:
                 return
             start = number
         pending += tokens
+        end = number
         if nports == 2 and len(pending) < expected and len(pending) % 2:
             continue  # a wrapped 2-port row (frequency and pairs, then pairs) goes on on the next line
         if len(pending) != expected:
@@ -194,7 +195,7 @@ def _check_layout(path: Path, text: str, nports: int) -> None:
         pending = []
         rows += 1
     if pending:
-        _row_error(path, lines, start, len(lines), len(pending), nports)
+        _row_error(path, lines, start, end, len(pending), nports)
     if not option_seen:
         raise InputError(f"{path}: no option line; {_OPTION_HELP}")
     if rows == 0:
@@ -208,8 +209,8 @@ def _row_error(path: Path, lines: list[str], start: int, number: int, count: int
     last = not any(r.split("!", 1)[0].strip() for r in lines[number:])
     hint = (" (the file looks truncated)" if last and count < expected else
             f" (this looks like a {other[count]}-port file: check the extension)" if count in other else "")
-    where = f"row {start}" if start == number else f"rows {start}-{number}"
-    raise InputError(f"{path}: {where} has {count} values; a {nports}-port file needs {expected} per row "
+    where = f"row {start} has" if start == number else f"rows {start}-{number} have"
+    raise InputError(f"{path}: {where} {count} values; a {nports}-port file needs {expected} per row "
                      f"(frequency and {nports * nports} complex parameter{'s' if nports > 1 else ''}){hint}")
 
 
