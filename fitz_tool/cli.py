@@ -32,7 +32,7 @@ def _key_value(text: str, what: str) -> tuple[str, str]:
     return key.strip(), value.strip()
 
 
-def _add_reader_options(parser: argparse.ArgumentParser) -> None:
+def add_reader_options(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("reading the bench file")
     group.add_argument("--map", action="append", default=[], metavar="ROLE=HEADER",
                        help="name the column for a role (repeatable), e.g. --map frequency='Freq (kHz)'; "
@@ -539,7 +539,7 @@ def _add_lot_commands(commands) -> None:
     lot.add_argument("--model", metavar="EXPR|PRESET|auto",
                      help="one model for every file; auto picks the one with the best total BIC")
     lot.add_argument("--per-file-model", action="store_true", help="with auto: each file its own model")
-    _add_reader_options(lot)
+    add_reader_options(lot)
     _add_fit_options(lot)
     out = lot.add_argument_group("table, store and workers")
     out.add_argument("--table", required=True, metavar="OUT.csv", help="the lot table (.csv, or .parquet)")
@@ -556,7 +556,7 @@ def _add_lot_commands(commands) -> None:
     compare = commands.add_parser("compare", help="fit two or three parts alike and tabulate differences")
     compare.add_argument("files", nargs="+", metavar="FILE")
     compare.add_argument("--model", required=True, metavar="EXPR|PRESET|auto", help="as for lot")
-    _add_reader_options(compare)
+    add_reader_options(compare)
     _add_fit_options(compare)
     compare.add_argument("--table", metavar="OUT.csv", help="write the difference table")
     compare.add_argument("--report", metavar="OUT.html", help="HTML report with the |Z| and phase overlay")
@@ -572,7 +572,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     inspect = commands.add_parser("inspect", help="read a bench file and summarize the measured impedance")
     inspect.add_argument("file", metavar="FILE")
-    _add_reader_options(inspect)
+    add_reader_options(inspect)
     inspect.add_argument("--plot", metavar="OUT.png", help="write a Bode plot of |Z| and phase")
     inspect.add_argument("--csv", metavar="OUT.csv", help="write the normalized impedance table")
     inspect.set_defaults(handler=_cmd_inspect)
@@ -581,7 +581,7 @@ def build_parser() -> argparse.ArgumentParser:
     fitp.add_argument("file", metavar="FILE")
     fitp.add_argument("--model", required=True, metavar="EXPR|PRESET|auto",
                       help="circuit expression (e.g. 'Rs + L1 || Cp'), a preset name (see 'models'), or auto")
-    _add_reader_options(fitp)
+    add_reader_options(fitp)
     model = fitp.add_argument_group("parameters")
     model.add_argument("--fix", action="append", default=[], metavar="NAME=VALUE", help="hold a parameter")
     model.add_argument("--guess", action="append", default=[], metavar="NAME=VALUE", help="starting value")

@@ -21,8 +21,18 @@ from ..exceptions import FitzError
 __all__ = ["PartJob", "run_part", "READING_FIELDS"]
 
 #: Reading and correction options of a part (text, as on the command line); ``map`` is a list of ROLE=HEADER.
-READING_FIELDS = ("map", "shunt", "reference", "through", "band", "noise", "skew", "open", "short", "load",
-                  "load_value")
+
+
+def _reading_fields() -> tuple[str, ...]:
+    """Names of the reading and correction options, taken from the command line's own option group."""
+    from ..cli import add_reader_options
+
+    parser = argparse.ArgumentParser(add_help=False)
+    add_reader_options(parser)
+    return tuple(action.dest for action in parser._actions)
+
+
+READING_FIELDS = _reading_fields()
 
 
 @dataclass(frozen=True)
