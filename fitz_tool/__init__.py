@@ -55,6 +55,18 @@ _EXPORTS: dict[str, str] = {
     "render_html_report": "outputs.html_report",
     "to_spice_subcircuit": "outputs.spice",
     "format_quantity": "units",
+    # the part under a periodic drive
+    "DriveModel": "drive",
+    "DriveResult": "drive",
+    "Waveform": "drive",
+    "model_from_fit": "drive",
+    "model_from_json": "drive",
+    "read_waveform": "drive",
+    "drive_waveform": "drive",
+    "drive_response": "drive",
+    "format_drive_report": "outputs.drive_report",
+    "drive_to_json": "outputs.drive_report",
+    "drive_figures": "outputs.drive_report",
     "parse_quantity": "units",
     # many parts: lots, spec verdicts, the results store
     "LotItem": "lot",

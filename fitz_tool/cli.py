@@ -383,12 +383,20 @@ def _cmd_fit(args) -> int:
         result = fit(measurement, circuit, **constraints)
     design = design_values(result, at)
     budget = uncertainty_budget(result, limits, at, monte_carlo=args.budget_mc)
+    from .drive import model_from_fit
+
+    drive, drive_inputs = _drive_from_args(args, model_from_fit(result), "drive-")
+    inputs += drive_inputs
     record = run_record(args, inputs, __version__)
 
     outputs: dict[str, bytes | str] = {}
     if args.json:
-        outputs[args.json] = json.dumps(fit_to_json(result, selection, design, record, budget=budget),
-                                       indent=2) + "\n"
+        data = fit_to_json(result, selection, design, record, budget=budget)
+        if drive is not None:
+            from .outputs.drive_report import drive_to_json
+
+            data["drive"] = drive_to_json(drive)
+        outputs[args.json] = json.dumps(data, indent=2) + "\n"
     if args.curve:
         from .outputs.report import curve_table
 
@@ -409,13 +417,101 @@ def _cmd_fit(args) -> int:
         for key, figure in figures.items():
             for fmt in ("png", "svg"):
                 outputs[str(Path(args.plot_dir) / f"{stem}_{key}.{fmt}")] = _figure_bytes(figure, fmt)
+        if drive is not None:
+            outputs.update(_drive_figure_outputs(drive, stem, args.plot_dir))
     if args.report:
         from .outputs.html_report import render_html_report
 
+        extra = []
+        if drive is not None:
+            from .outputs.drive_report import drive_figures, drive_html_section
+
+            figures = {**figures, **drive_figures(drive)}
+            extra.append(("Drive response", drive_html_section(drive)))
         outputs[args.report] = render_html_report(result, selection, design, record, figures,
-                                                   budget=budget)
+                                                  budget=budget, extra_sections=extra)
     write_outputs(outputs, inputs)
     print(format_fit_report(result, selection, design, budget=budget))
+    if drive is not None:
+        from .outputs.drive_report import format_drive_report
+
+        print(format_drive_report(drive), end="")
+    return 0
+
+
+def _add_drive_source(group, prefix: str) -> None:
+    """The drive options (``prefix`` "" on the drive command, "drive-" on fit)."""
+    source = group.add_mutually_exclusive_group(required=not prefix)
+    source.add_argument(f"--{prefix}current", metavar="WAVE.csv",
+                        help="drive current record: time and current columns, units in the header, one or "
+                             "more whole periods")
+    source.add_argument(f"--{prefix}voltage", metavar="WAVE.csv",
+                        help="drive voltage record (the current then follows from the model)")
+    source.add_argument("--drive", metavar="SPEC",
+                        help="built-in drive, e.g. 'triangle:0.6App@500k+dc:2A' (shapes sine, triangle, "
+                             "square, trapezoid; options ,duty=0.25 ,rise=20n ,phase=90)")
+    group.add_argument(f"--{prefix}period", metavar="SECONDS",
+                       help="period of the record when it is not whole periods (the last whole ones "
+                            "are used)")
+    group.add_argument(f"--{prefix}column", metavar="HEADER", help="value column when the record has several")
+    group.add_argument("--allow-extrapolation", action="store_true",
+                       help="accept a drive with most of its AC content outside the fitted band")
+
+
+def _drive_from_args(args, model, prefix: str):
+    """(DriveResult, input files) for the drive options, or (None, []) when no drive was asked for."""
+    from .drive import drive_response, drive_waveform, read_waveform
+
+    key = prefix.replace("-", "_")
+    current, voltage = getattr(args, f"{key}current"), getattr(args, f"{key}voltage")
+    if not (current or voltage or args.drive):
+        return None, []
+    period_text = getattr(args, f"{key}period")
+    period = parse_quantity(period_text, "s", f"--{prefix}period") if period_text else None
+    if args.drive:
+        if period is not None:
+            raise InputError(f"--{prefix}period applies to a record (WAVE.csv), not to --drive")
+        waveform, inputs = drive_waveform(args.drive), []
+    else:
+        path = current or voltage
+        waveform = read_waveform(path, "current" if current else "voltage", period,
+                                 getattr(args, f"{key}column"))
+        inputs = [path]
+    return drive_response(model, waveform, args.allow_extrapolation), inputs
+
+
+def _drive_figure_outputs(drive, stem: str, plot_dir: str) -> dict[str, bytes]:
+    from .outputs.drive_report import drive_figures
+
+    outputs = {}
+    for key, figure in drive_figures(drive).items():
+        for fmt in ("png", "svg"):
+            outputs[str(Path(plot_dir) / f"{stem}_{key}.{fmt}")] = _figure_bytes(figure, fmt)
+    return outputs
+
+
+def _cmd_drive(args) -> int:
+    from .drive import model_from_json
+    from .outputs.atomic import write_outputs
+    from .outputs.drive_report import drive_to_json, format_drive_report
+
+    model = model_from_json(args.fit_json)
+    drive, inputs = _drive_from_args(args, model, "")
+    inputs = [args.fit_json, *inputs]
+    outputs: dict[str, bytes | str] = {}
+    if args.json:
+        from .outputs.report import run_record
+
+        record = run_record(args, inputs, __version__)
+        data = drive_to_json(drive)
+        data["run"] = {"options": dict(record.options), "inputs": [{"path": i.path, "sha256": i.sha256}
+                                                                   for i in record.inputs],
+                       "version": record.version, "date": record.date}
+        outputs[args.json] = json.dumps(data, indent=2) + "\n"
+    if args.plot_dir:
+        outputs.update(_drive_figure_outputs(drive, Path(args.fit_json).stem, args.plot_dir))
+    write_outputs(outputs, inputs)
+    print(format_drive_report(drive), end="")
     return 0
 
 
@@ -605,7 +701,17 @@ def build_parser() -> argparse.ArgumentParser:
     out.add_argument("--curve-band", metavar="FMIN:FMAX:POINTS",
                      help="frequencies of the --touchstone export, log-spaced (default: the measured ones), "
                           "e.g. 1M:3G:401")
+    _add_drive_source(fitp.add_argument_group("the part under a periodic drive (see 'drive')"), "drive-")
     fitp.set_defaults(handler=_cmd_fit)
+
+    drivep = commands.add_parser("drive", help="voltage, ripple and loss of a fitted part under a periodic "
+                                               "current or voltage")
+    drivep.add_argument("fit_json", metavar="FIT.json", help="the record 'fit --json' wrote")
+    _add_drive_source(drivep.add_argument_group("the drive"), "")
+    dout = drivep.add_argument_group("outputs")
+    dout.add_argument("--json", metavar="OUT.json", help="machine-readable result (SI units)")
+    dout.add_argument("--plot-dir", metavar="DIR", help="write PNG and SVG plots into DIR")
+    drivep.set_defaults(handler=_cmd_drive)
 
     models = commands.add_parser("models", help="list the named starting topologies")
     models.set_defaults(handler=_cmd_models)

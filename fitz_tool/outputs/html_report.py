@@ -10,7 +10,7 @@ from __future__ import annotations
 import base64
 import io
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from html import escape
 
 import numpy as np
@@ -60,6 +60,12 @@ code, .mono { font-family: monospace; }
 .safety { border-left: 4px solid #D55E00; padding-left: 1em; }
 figure { margin: 1em 0; } figure img { max-width: 100%; }
 """
+
+
+def _DRIVE_CAPTIONS() -> dict[str, str]:  # noqa: N802 - loaded only when a drive figure is shown
+    from .drive_report import DRIVE_FIGURE_CAPTIONS
+
+    return DRIVE_FIGURE_CAPTIONS
 
 
 def _e(text) -> str:
@@ -146,7 +152,8 @@ def _part(result: FitResult, record: RunRecord | None) -> str:
 
 
 def render_html_report(result: FitResult, selection: ModelSelection | None, design: DesignValues,
-                       record: RunRecord | None, figures: Mapping[str, object], budget=None) -> str:
+                       record: RunRecord | None, figures: Mapping[str, object], budget=None,
+                       extra_sections: Sequence[tuple[str, str]] = ()) -> str:
     """The whole report as one HTML string (UTF-8), figures embedded as base64 PNG.
 
     Parameters
@@ -159,6 +166,8 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
         Rendered in the given order, with captions from ``FIGURE_CAPTIONS`` where known; left open.
     budget : fitz_tool.budget.Budget, optional
         Adds the uncertainty budget section (see :mod:`fitz_tool.outputs.budget_report`).
+    extra_sections : sequence of (title, HTML fragment)
+        Sections placed before the plots (e.g. a drive response); fragments must be escaped already.
     """
     prov = result.measurement.provenance
     part = prov.source or "part"
@@ -183,9 +192,10 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
         from .budget_report import budget_html
 
         sections.append(("Uncertainty budget", budget_html(budget)))
+    sections += list(extra_sections)
     plots = []
     for key, figure in figures.items():
-        caption = FIGURE_CAPTIONS.get(key, key)
+        caption = FIGURE_CAPTIONS.get(key) or _DRIVE_CAPTIONS().get(key, key)
         plots.append(f'<figure><img alt="{_e(key)} plot" src="data:image/png;base64,{_figure_png(figure)}">'
                      f"<figcaption>{_e(caption)}</figcaption></figure>")
     sections.append(("Plots", "".join(plots) or "<p>No plots.</p>"))

@@ -256,6 +256,8 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
                     "note": r.note, "chosen": r.expression == chosen} for r in selection.ranking]
     record_json = {
         "model": result.circuit.expression,
+        "band": {"f_min": _num(result.measurement.frequency[0]),
+                 "f_max": _num(result.measurement.frequency[-1])},
         "parameters": {p.name: {"value": _num(p.value), "stderr": _num(p.stderr), "unit": p.unit,
                                 "vary": bool(p.vary), "at_bound": p.at_bound, "stderr_note": p.stderr_note,
                                 "interval": None if p.interval is None else [_num(v) for v in p.interval],
