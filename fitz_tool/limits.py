@@ -11,7 +11,6 @@ from __future__ import annotations
 import math
 import re
 
-from .circuit import MAX_DEPTH, MAX_ELEMENTS
 from .exceptions import InputError, ModelSyntaxError
 
 __all__ = [
@@ -40,10 +39,12 @@ OVERFLOW_MARKER = 9.9e37
 MAX_LINE_LENGTH = 100_000
 #: Circuit expressions: characters, nesting depth of parentheses, number of elements. A fit's work grows
 #: with the parameter count; beyond these the fit runs for minutes and the data cannot support the model.
-#: Depth and element count are the grammar's own limits (``circuit.MAX_DEPTH``, ``circuit.MAX_ELEMENTS``),
+#: The grammar enforces depth and element count too (``circuit.tree`` reads them from here); they are
 #: checked here before parsing so that the refusal never repeats a long expression.
 MAX_EXPRESSION_LENGTH = 1_000
+MAX_DEPTH = 20
 MAX_EXPRESSION_DEPTH = MAX_DEPTH
+MAX_ELEMENTS = 40
 
 _NAME = re.compile(r"[A-Za-z][A-Za-z0-9_]*")
 

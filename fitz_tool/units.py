@@ -9,8 +9,6 @@ import math
 import re
 import unicodedata
 
-from matplotlib.ticker import EngFormatter
-
 from .exceptions import InputError
 
 __all__ = [
@@ -55,6 +53,8 @@ def parse_quantity(text: str, unit: str = "", what: str = "value") -> float:
 
 
 def _eng(value: float, unit: str, places: int | None) -> str:
+    from matplotlib.ticker import EngFormatter  # display only: kept out of the import path of reading
+
     text = EngFormatter(unit=unit, places=places, sep=" ", usetex=False, useMathText=False)(value)
     return text.replace("\u00b5", "u").replace("\u2212", "-")
 

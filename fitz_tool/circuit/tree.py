@@ -19,13 +19,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..exceptions import ModelSyntaxError
+from ..limits import MAX_DEPTH, MAX_ELEMENTS
 from .kinds import ELEMENT_KINDS, ElementKind
 
 __all__ = ["Element", "Series", "Parallel", "Node", "Circuit", "parse_circuit", "MAX_ELEMENTS", "MAX_DEPTH"]
 
-#: Most elements and deepest nesting of parentheses an expression may have (bounds the work of a fit).
-MAX_ELEMENTS = 40
-MAX_DEPTH = 20
 
 
 @dataclass(frozen=True)

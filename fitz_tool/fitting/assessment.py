@@ -21,13 +21,13 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-import lmfit
 import numpy as np
 from uncertainties import correlated_values, covariance_matrix
 
 from ..measurement import Measurement
 from ..results import FitResult, ParameterEstimate
 from ..units import format_quantity, format_to_resolution
+from .local import AT_BOUND_TOLERANCE
 from .profile import (
     APPROXIMATE_LIMIT,
     SYMMETRY_LIMIT,
@@ -39,6 +39,7 @@ from .profile import (
 
 if TYPE_CHECKING:
     from ..circuit import Circuit
+    from .local import LocalFit
     from .problem import FitProblem
 
 __all__ = ["assess", "residual_structure", "weighting_description", "CORRELATION_LIMIT", "UNDETERMINED_LIMIT",
@@ -47,7 +48,6 @@ __all__ = ["assess", "residual_structure", "weighting_description", "CORRELATION
 #: |correlation| above which a pair is flagged (and both get a profile interval).
 CORRELATION_LIMIT = 0.99
 #: Distance (internal units: decades, or n) from a bound that counts as sitting on it.
-AT_BOUND_TOLERANCE = 1e-3
 #: An exponent within this many first-order errors of its bound gets a profile interval.
 NEAR_BOUND_ERRORS = 3.0
 #: Which parameters get a profile interval: those flagged above, every free one, or none.
@@ -89,13 +89,13 @@ def residual_structure(real: np.ndarray, imag: np.ndarray) -> str | None:
             "describe the part")
 
 
-def _first_order(out: lmfit.minimizer.MinimizerResult, circuit: Circuit, free: tuple[str, ...],
+def _first_order(out: LocalFit, circuit: Circuit, free: tuple[str, ...],
                  skip: set[str]) -> tuple[dict, dict[str, float]]:
     """SI ``uncertainties`` values and internal-coordinate standard errors of the fit (first order)."""
-    uvars_internal = getattr(out, "uvars", None) or {}
+    uvars_internal = out.uvars
     uvars, se_internal = {}, {}
     for i, name in enumerate(free):
-        stderr = out.params[f"p{i}"].stderr
+        stderr = out.stderr[i]
         if name in skip or f"p{i}" not in uvars_internal or stderr is None or not np.isfinite(stderr):
             continue
         u = uvars_internal[f"p{i}"]
@@ -211,10 +211,10 @@ def _correlations(uvars: dict, names: list[str]) -> tuple[np.ndarray | None, np.
         return covariance, covariance / np.outer(sd, sd)
 
 
-def assess(problem: FitProblem, m: Measurement, out: lmfit.minimizer.MinimizerResult,
+def assess(problem: FitProblem, m: Measurement, out: LocalFit,
            hard_bounds: tuple[np.ndarray, np.ndarray], scale_covar: bool, stage: str, *,
            intervals: str = "flagged", user_bounded: frozenset[str] = frozenset(),
-           refit: Callable[[np.ndarray], lmfit.minimizer.MinimizerResult] | None = None) -> FitResult:
+           refit: Callable[[np.ndarray], LocalFit] | None = None) -> FitResult:
     """Turn a local fit (internal coordinates) into a :class:`FitResult` in SI with honest uncertainties.
 
     Parameters
@@ -223,7 +223,7 @@ def assess(problem: FitProblem, m: Measurement, out: lmfit.minimizer.MinimizerRe
         The fitted residual (internal coordinates).
     m : Measurement
         The measurement fitted.
-    out : lmfit.minimizer.MinimizerResult
+    out : LocalFit
         The local fit's result (parameters ``p0, p1, ...`` in internal coordinates).
     hard_bounds : tuple of numpy.ndarray
         Lower and upper bounds of the internal coordinates.
@@ -240,7 +240,7 @@ def assess(problem: FitProblem, m: Measurement, out: lmfit.minimizer.MinimizerRe
         stopped in a poorer basin), the fit is repeated from there once and that result is assessed instead.
     """
     circuit, free = problem.circuit, problem.free
-    x = np.array([p.value for p in out.params.values()])
+    x = out.x
     values = problem.values(x)
     n_res, k = 2 * len(m), len(free)
     dof = n_res - k

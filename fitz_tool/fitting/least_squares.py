@@ -1,4 +1,4 @@
-"""Complex nonlinear least-squares fit of a circuit to a measurement (lmfit, Levenberg-Marquardt).
+"""Complex nonlinear least-squares fit of a circuit to a measurement (Levenberg-Marquardt, scipy).
 
 Residual (complex nonlinear least squares on the log of Z, common practice): for each point the real part
 ``ln|Z_model| - ln|Z_meas|`` divided by ``sigma_lnmag`` and the wrapped phase difference
@@ -11,7 +11,7 @@ exponent n linearly, 0 < n <= 1), inside bounds that keep them physical, with th
 ``scale_covar`` is True (noise level estimated from the residuals) unless the measurement's sigmas are
 absolute. Information criteria (n = 2 * points residual entries, k free parameters): with absolute sigmas
 ``AIC = chi2 + 2k``, ``BIC = chi2 + k ln n``; otherwise the Gaussian-likelihood forms with the noise level
-estimated, ``AIC = n ln(chi2/n) + 2k``, ``BIC = n ln(chi2/n) + k ln n`` (as lmfit reports them). The result
+estimated, ``AIC = n ln(chi2/n) + 2k``, ``BIC = n ln(chi2/n) + k ln n`` (common practice). The result
 is judged and converted to SI in :mod:`fitz_tool.assessment`.
 """
 
@@ -20,7 +20,6 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
 
-import lmfit
 import numpy as np
 
 from ..circuit import Circuit
@@ -29,6 +28,7 @@ from ..measurement import Measurement
 from ..presets import resolve_model
 from ..results import FitResult
 from .assessment import INTERVAL_MODES, assess, residual_structure
+from .local import LocalFit, local_fit
 from .problem import FitProblem, decimated, problem_for
 from .resonances import resonance_intervals, resonance_starts
 from .scatter import FAR_ABOVE_SCATTER, scatter_sigma
@@ -90,41 +90,6 @@ def _boxes(circuit: Circuit, m: Measurement, free: tuple[str, ...],
             if not lo[i] < hi[i]:
                 lo[i], hi[i] = b_lo[i], b_hi[i]
     return lo, hi, b_lo, b_hi
-
-
-def _local_fit(problem: FitProblem, x0: np.ndarray, b_lo: np.ndarray, b_hi: np.ndarray,
-               scale_covar: bool) -> lmfit.minimizer.MinimizerResult:
-    """One local fit from ``x0`` with the exact Jacobian.
-
-    Levenberg-Marquardt (lmfit ``leastsq``) first; when it stops near a bound or does not converge within
-    its budget, the bounded trust-region method (lmfit ``least_squares``), which handles active bounds
-    directly, continues from where it stopped.
-    """
-    span = b_hi - b_lo
-    k = len(x0)
-
-    def run(start: np.ndarray, method: str) -> lmfit.minimizer.MinimizerResult:
-        params = lmfit.Parameters()
-        for i, x in enumerate(np.clip(start, b_lo + 1e-6 * span, b_hi - 1e-6 * span)):
-            params.add(f"p{i}", value=float(x), min=float(b_lo[i]), max=float(b_hi[i]))
-        keys = list(params)
-
-        def vector(p: lmfit.Parameters) -> np.ndarray:
-            return np.array([p[key].value for key in keys])
-
-        # lmfit takes square roots of a covariance that may not be positive definite; such NaN errors are
-        # judged (and reported in words) by the assessment, so numpy's warnings would only be noise here.
-        with np.errstate(all="ignore"):
-            return lmfit.minimize(lambda p: problem.residual(vector(p)), params, method=method,
-                                  Dfun=lambda p: problem.jacobian(vector(p)), scale_covar=scale_covar,
-                                  max_nfev=100 * (k + 1))
-
-    out = run(x0, "leastsq")
-    x = _vector(out)
-    if out.success and np.all(np.minimum(x - b_lo, b_hi - x) > 0.05):
-        return out
-    trial = run(x, "least_squares")
-    return trial if trial.chisqr <= out.chisqr or not out.success else out
 
 
 def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, float] | None = None,
@@ -193,7 +158,7 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
                          np.array([n not in guesses for n in free]))
     result = assess(problem, measurement, out, (b_lo, b_hi), scale_covar, stage, intervals=intervals,
                     user_bounded=frozenset(bounds),
-                    refit=lambda x: _local_fit(problem, x, b_lo, b_hi, scale_covar))
+                    refit=lambda x: local_fit(problem, x, b_lo, b_hi, scale_covar))
     extra = list(circuit.notes)
     ratio = far_above_scatter(problem, result.chi_square, _scatter(problem))
     if ratio is not None:
@@ -203,8 +168,8 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
     return replace(result, flags=result.flags + tuple(extra)) if extra else result
 
 
-def _vector(out: lmfit.minimizer.MinimizerResult) -> np.ndarray:
-    return np.array([p.value for p in out.params.values()])
+def _vector(out: LocalFit) -> np.ndarray:
+    return out.x
 
 
 def _scatter(problem: FitProblem) -> float | None:
@@ -223,7 +188,7 @@ def far_above_scatter(problem: FitProblem, chi_square: float, scatter: float | N
     return ratio if ratio > FAR_ABOVE_SCATTER else None
 
 
-def _converged_well(problem: FitProblem, out: lmfit.minimizer.MinimizerResult, scatter: float | None) -> bool:
+def _converged_well(problem: FitProblem, out: LocalFit, scatter: float | None) -> bool:
     """Accept a fit when it succeeded, its residuals look like noise and stay near the data's scatter."""
     if not out.success:
         return False
@@ -247,7 +212,7 @@ def _search(problem: FitProblem, x0: np.ndarray, box: tuple[np.ndarray, np.ndarr
     coarse = decimated(problem, SEARCH_POINTS)
 
     def local(x):
-        return _local_fit(problem, x, b_lo, b_hi, scale_covar)
+        return local_fit(problem, x, b_lo, b_hi, scale_covar)
 
     out, stage = local(x0), "from the data-derived seed"
     if _converged_well(problem, out, scatter):

@@ -24,7 +24,6 @@ from typing import Protocol
 
 import numpy as np
 from scipy.optimize import least_squares
-from scipy.stats import qmc
 
 from ..circuit import Circuit, DataFeatures, Element, Node, Parallel
 from ..measurement import Measurement
@@ -157,6 +156,8 @@ def global_search(objective: Objective, lower: np.ndarray, upper: np.ndarray,
     """
     k = lower.size
     n = samples or int(min(4096, 2 ** np.ceil(np.log2(256 * k))))
+    from scipy.stats import qmc  # scipy.stats is slow to import: only when a global search runs
+
     unit = qmc.Sobol(k, scramble=True, seed=seed).random(n)
     points = lower + unit * (upper - lower)
     cost = objective.batch_cost(points)
