@@ -163,15 +163,25 @@ def budget_inputs_from_args(args):
                           if args.skew_uncertainty else None))
 
 
+def _two_port(args) -> bool:
+    """Whether the part and its standards are 2-port files to de-embed on the full matrices (scikit-rf is
+    imported only when standards are given)."""
+    from .fixtures import two_port_method
+
+    standards = {"open": args.open, "short": args.short, "load": args.load}
+    return two_port_method(args.file, standards) == "two-port"
+
+
 def load_from_args(args):
     """Read the bench file and apply corrections as the options say; returns (Measurement, input paths)."""
     from .corrections import Corrections, apply_corrections
-    from .fixtures import deembed_two_port, two_port_method
     from .readers import read_measurement
 
     options = _read_options(args)
     inputs = [args.file] + [p for p in (args.open, args.short, args.load) if p]
-    if two_port_method(args.file, {"open": args.open, "short": args.short, "load": args.load}) == "two-port":
+    if (args.open or args.short or args.load) and _two_port(args):
+        from .fixtures import deembed_two_port
+
         if args.skew:
             raise InputError("--skew is for two-channel bench data, not for network-analyzer .s2p files")
         measurement = deembed_two_port(args.file, args.through, open=args.open, short=args.short)

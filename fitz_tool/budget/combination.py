@@ -29,7 +29,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
+from scipy.special import stdtrit
 
 from ..derived import DerivedValue, DesignValues, design_values
 from ..fitting.problem import FitProblem, problem_for
@@ -149,7 +149,8 @@ def coverage_factor(nu_eff: float) -> float:
     """k for 95.45 % coverage from the t-distribution with ``nu_eff`` degrees of freedom (2 when infinite)."""
     if not math.isfinite(nu_eff):
         return 2.0
-    return float(stats.t.ppf(0.5 + COVERAGE_PROBABILITY / 2, max(nu_eff, 1.0)))
+    # inverse of Student's t distribution function (scipy.special; scipy.stats is slow to import)
+    return float(stdtrit(max(nu_eff, 1.0), 0.5 + COVERAGE_PROBABILITY / 2))
 
 
 def design_items(design: DesignValues) -> dict[str, DerivedValue]:

@@ -13,13 +13,16 @@ import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from ..derived import DerivedValue, DesignValues
 from ..results import FitResult, ModelSelection
 from ..units import format_quantity, format_to_resolution
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 __all__ = ["InputFile", "RunRecord", "run_record", "format_fit_report", "fit_to_json", "curve_table",
            "format_value", "format_derived_value"]
@@ -300,6 +303,8 @@ def curve_table(result: FitResult) -> pd.DataFrame:
     phase difference wrapped to (-180, 180]; and, when the measurement has them, ``sigma_abs_rel`` and
     ``sigma_phase_deg``.
     """
+    import pandas as pd  # only for the curve table: pandas is slow to import
+
     m = result.measurement
     z_model = result.model_impedance()
     table = {"frequency_Hz": m.frequency}
