@@ -539,7 +539,9 @@ def _cmd_models(args) -> int:
 
 def _lot_settings(args, model: str):
     from .lot import LotSettings
-    from .lot.job import READING_FIELDS
+    from .lot.job import BUDGET_FIELDS, READING_FIELDS
+
+    budget_inputs_from_args(args)  # refuse bad accuracy options before any work
 
     at = {}
     for text in args.at:
@@ -549,7 +551,8 @@ def _lot_settings(args, model: str):
                        fixed=_parse_named_values(args.fix, "--fix"),
                        guesses=_parse_named_values(args.guess, "--guess"), bounds=_parse_bounds(args.bound),
                        intervals=args.intervals, at=at, specs=tuple(args.spec),
-                       per_file_model=getattr(args, "per_file_model", False))
+                       per_file_model=getattr(args, "per_file_model", False),
+                       budget={k: getattr(args, k) for k in BUDGET_FIELDS})
 
 
 def _lot_report_outputs(result, stats, report: str | None, title: str) -> dict[str, bytes | str]:
@@ -646,6 +649,7 @@ def _add_lot_commands(commands) -> None:
                      help="one model for every file; auto picks the one with the best total BIC")
     lot.add_argument("--per-file-model", action="store_true", help="with auto: each file its own model")
     add_reader_options(lot)
+    _add_budget_options(lot)
     _add_fit_options(lot)
     out = lot.add_argument_group("table, store and workers")
     out.add_argument("--table", required=True, metavar="OUT.csv", help="the lot table (.csv, or .parquet)")
@@ -663,6 +667,7 @@ def _add_lot_commands(commands) -> None:
     compare.add_argument("files", nargs="+", metavar="FILE")
     compare.add_argument("--model", required=True, metavar="EXPR|PRESET|auto", help="as for lot")
     add_reader_options(compare)
+    _add_budget_options(compare)
     _add_fit_options(compare)
     compare.add_argument("--table", metavar="OUT.csv", help="write the difference table")
     compare.add_argument("--report", metavar="OUT.html", help="HTML report with the |Z| and phase overlay")

@@ -21,22 +21,23 @@ import numpy as np
 
 HERE = Path(__file__).resolve().parent / "lot_chokes"
 SEED = 20240611
-#: Each choke's zero-bias inductance L0 (H), winding resistance Rs (ohm) and winding capacitance Cp (F).
+#: Each choke's zero-bias inductance L0 (H), winding resistance Rs (ohm), winding capacitance Cp (F) and
+#: core-loss resistance Rp (ohm) across the part.
 CHOKES: dict[str, dict[str, float]] = {
-    "L3-01": {"L0": 22.4e-6, "Rs": 17e-3, "Cp": 11.5e-12},
-    "L3-02": {"L0": 21.1e-6, "Rs": 19e-3, "Cp": 12.4e-12},
-    "L3-03": {"L0": 23.0e-6, "Rs": 18e-3, "Cp": 12.0e-12},
-    "L3-04": {"L0": 21.7e-6, "Rs": 20e-3, "Cp": 12.9e-12},
+    "L3-01": {"L0": 22.4e-6, "Rs": 17e-3, "Cp": 11.5e-12, "Rp": 15.5e3},
+    "L3-02": {"L0": 21.1e-6, "Rs": 19e-3, "Cp": 12.4e-12, "Rp": 14.2e3},
+    "L3-03": {"L0": 23.0e-6, "Rs": 18e-3, "Cp": 12.0e-12, "Rp": 16.1e3},
+    "L3-04": {"L0": 21.7e-6, "Rs": 20e-3, "Cp": 12.9e-12, "Rp": 13.8e3},
 }
 #: Soft-saturation current of the invented law above (A).
 I_SAT = 9.0
 BIAS_A = (0.0, 3.0, 6.0)
 
 
-def z_choke(f: np.ndarray, L: float, Rs: float, Cp: float) -> np.ndarray:
-    """(Rs + L) in parallel with Cp (ohm)."""
+def z_choke(f: np.ndarray, L: float, Rs: float, Cp: float, Rp: float) -> np.ndarray:
+    """(Rs + L) in parallel with Cp and Rp (ohm)."""
     w = 2 * np.pi * f
-    return 1 / (1 / (Rs + 1j * w * L) + 1j * w * Cp)
+    return 1 / (1 / (Rs + 1j * w * L) + 1j * w * Cp + 1 / Rp)
 
 
 def main() -> None:
@@ -47,7 +48,7 @@ def main() -> None:
     for n, (part, truth) in enumerate(CHOKES.items()):
         for bias in BIAS_A:
             L = truth["L0"] / (1 + (bias / I_SAT) ** 2)
-            z = z_choke(f, L, truth["Rs"], truth["Cp"])
+            z = z_choke(f, L, truth["Rs"], truth["Cp"], truth["Rp"])
             z = np.abs(z) * (1 + 0.003 * rng.standard_normal(f.size)) * np.exp(
                 1j * (np.angle(z) + np.radians(0.1) * rng.standard_normal(f.size)))
             stem = f"{part}_{bias:g}A"

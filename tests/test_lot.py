@@ -88,7 +88,7 @@ def test_refit_fits_again_and_the_store_counts_it(lot, tmp_path):
 
 def test_auto_chooses_one_model_for_the_lot(lot):
     _, _, items, _, _ = lot
-    readable = [i for i in items if "part_9" not in i.part][:6]
+    readable = [i for i in items if "part_9" not in i.part][:3]
     result = run_lot(readable, LotSettings(model="auto"), workers=1)
     assert result.lot_model is not None and set(result.table["model"]) == {result.lot_model}
     assert "total BIC" in result.model_note
@@ -101,5 +101,21 @@ def test_dask_local_cluster_gives_the_same_table_as_the_process_pool(lot):
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   dashboard_address=None) as cluster, distributed.Client(cluster) as client:
         on_dask = run_lot(items, settings, executor=client)
-    assert on_dask.fitted == 34
+    assert on_dask.fitted == 34 and on_dask.n_errors == 2, set(on_dask.table["error"])
     pd.testing.assert_frame_equal(on_dask.table, result.table)
+
+
+def test_verdicts_use_the_budget_expanded_uncertainty(lot):
+    _, _, items, _, result = lot
+    inside = [i for i in items if "part_9" not in i.part and int(i.part[-2:]) % 3 != 2][:3]
+    noise_only = result.table.set_index("file")
+    stated = run_lot(inside, LotSettings(model=MODEL, specs=("L1=22u+-4%",), budget={"accuracy": "5%:0deg"}),
+                     workers=1).table.set_index("file")
+    for item in inside:
+        L = stated.loc[item.file, "L1"]
+        # a +/- 5 % |Z| limit is a rectangular input with u = a / sqrt(3) (GUM 4.3.7); L scales with |Z|, so
+        # u(L) / L = 0.05 / sqrt(3), far above the noise; U = k u_c with k = 2 for large nu_eff (GUM G.6.4)
+        assert stated.loc[item.file, "L1_U"] == pytest.approx(2 * L * 0.05 / math.sqrt(3), rel=0.02)
+        assert noise_only.loc[item.file, "L1_U"] < 0.01 * L
+        # 22 uH +/- 4 % cannot be confirmed with U of about 5.8 %: marginal, never pass
+        assert stated.loc[item.file, "spec_L1"] == "marginal"

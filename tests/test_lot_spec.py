@@ -33,16 +33,16 @@ def test_bad_specs_are_refused_with_the_option_named(text):
         parse_spec(text)
 
 
-def test_verdict_is_guard_banded_by_twice_the_standard_uncertainty():
-    # guarded acceptance / rejection with U = 2 u (ILAC-G8 decision rules, from memory; common practice)
+def test_verdict_is_guard_banded_by_the_expanded_uncertainty():
+    # guarded acceptance / rejection with U (ILAC-G8 decision rules, from memory; common practice)
     spec = Spec("L1", 10.0, 20.0, 15.0, "10:20")
-    assert verdict(spec, 15.0, 1.0) == "pass"  # [13, 17] inside
-    assert verdict(spec, 18.5, 1.0) == "marginal"  # [16.5, 20.5] straddles 20
-    assert verdict(spec, 21.0, 1.0) == "marginal"  # outside, but [19, 23] reaches inside
-    assert verdict(spec, 22.5, 1.0) == "fail"  # [20.5, 24.5] wholly above
-    assert verdict(spec, 7.9, 1.0) == "fail"
+    assert verdict(spec, 15.0, 2.0) == "pass"  # [13, 17] inside
+    assert verdict(spec, 18.5, 2.0) == "marginal"  # [16.5, 20.5] straddles 20
+    assert verdict(spec, 21.0, 2.0) == "marginal"  # outside, but [19, 23] reaches inside
+    assert verdict(spec, 22.5, 2.0) == "fail"  # [20.5, 24.5] wholly above
+    assert verdict(spec, 7.9, 2.0) == "fail"
     assert verdict(spec, 15.0, None) == "marginal"  # no uncertainty: cannot be decided
-    assert verdict(spec, math.nan, 1.0) == "marginal"
+    assert verdict(spec, math.nan, 2.0) == "marginal"
 
 
 def test_capability_indices_match_the_handbook_formulas():

@@ -1,9 +1,10 @@
 """One part of a lot: read, correct, fit and derive, as a plain picklable job returning a JSON-safe record.
 
 The job runs in a worker process (or on a Dask worker), so it carries only text options and SI numbers and
-returns only JSON-safe data: the same record ``fitz-tool fit --json`` writes (``fit_to_json``), for every
-candidate model fitted, plus the measured |Z| and phase for the lot's overlay plot. Reading and corrections
-go through the same function as ``fitz-tool fit`` (``cli.load_from_args``), so a lot reads every file
+returns only JSON-safe data: the same record ``fitz-tool fit --json`` writes (``fit_to_json``, with the
+uncertainty budget), for every candidate model fitted, plus the measured |Z| and phase for the lot's
+overlay plot. Reading, corrections and the budget's stated limits go through the same functions as
+``fitz-tool fit`` (``cli.load_from_args``, ``cli.budget_inputs_from_args``), so a lot reads every file
 exactly as the single-part command does.
 """
 
@@ -18,21 +19,31 @@ import numpy as np
 
 from ..exceptions import FitzError
 
-__all__ = ["PartJob", "run_part", "READING_FIELDS"]
+__all__ = ["PartJob", "run_part", "READING_FIELDS", "BUDGET_FIELDS"]
 
-#: Reading and correction options of a part (text, as on the command line); ``map`` is a list of ROLE=HEADER.
-
-
-def _reading_fields() -> tuple[str, ...]:
-    """Names of the reading and correction options, taken from the command line's own option group."""
-    from ..cli import add_reader_options
+def _option_parser() -> argparse.ArgumentParser:
+    """The command line's own reading, correction and accuracy option groups (so a lot reads as ``fit``)."""
+    from ..cli import _add_budget_options, add_reader_options
 
     parser = argparse.ArgumentParser(add_help=False)
     add_reader_options(parser)
-    return tuple(action.dest for action in parser._actions)
+    _add_budget_options(parser)
+    return parser
 
 
-READING_FIELDS = _reading_fields()
+def _fields() -> tuple[tuple[str, ...], tuple[str, ...]]:
+    reading = argparse.ArgumentParser(add_help=False)
+    from ..cli import add_reader_options
+
+    add_reader_options(reading)
+    names = tuple(action.dest for action in reading._actions)
+    everything = tuple(action.dest for action in _option_parser()._actions)
+    return names, tuple(n for n in everything if n not in names and n != "budget_mc")
+
+
+#: Reading and correction options of a part (text, as on the command line; ``map`` a list of ROLE=HEADER),
+#: and the stated accuracy limits of the uncertainty budget.
+READING_FIELDS, BUDGET_FIELDS = _fields()
 
 
 @dataclass(frozen=True)
@@ -55,6 +66,9 @@ class PartJob:
         Profile-interval mode of :func:`fitz_tool.fit`.
     at : tuple of float
         Operating frequencies (Hz) for design values.
+    budget : dict
+        Stated accuracy limits as text (names in ``BUDGET_FIELDS``) for the uncertainty budget
+        (:func:`fitz_tool.budget.uncertainty_budget`); empty: noise only.
     """
 
     file: str
@@ -65,17 +79,22 @@ class PartJob:
     bounds: dict = field(default_factory=dict)
     intervals: str = "flagged"
     at: tuple[float, ...] = ()
+    budget: dict = field(default_factory=dict)
 
     def standards(self) -> list[str]:
-        """Files of the fixture standards this job reads besides the bench file."""
-        return [self.reading[k] for k in ("open", "short", "load") if self.reading.get(k)]
+        """Files this job reads besides the bench file (fixture standards, accuracy table)."""
+        return ([self.reading[k] for k in ("open", "short", "load") if self.reading.get(k)]
+                + ([self.budget["accuracy_table"]] if self.budget.get("accuracy_table") else []))
 
 
 def _namespace(job: PartJob) -> argparse.Namespace:
-    values = {name: None for name in READING_FIELDS}
-    values["map"] = []
-    values.update({k: v for k, v in job.reading.items() if v not in (None, "")})
-    return argparse.Namespace(file=job.file, **values)
+    """The options of ``fitz-tool fit FILE`` as the job gives them (defaults for the rest)."""
+    namespace = _option_parser().parse_args([])
+    for name, value in {**job.reading, **job.budget}.items():
+        if value not in (None, ""):
+            setattr(namespace, name, value)
+    namespace.file = job.file
+    return namespace
 
 
 def run_part(job: PartJob) -> dict:
@@ -104,27 +123,35 @@ def run_part(job: PartJob) -> dict:
 
 
 def _fit_part(job: PartJob) -> dict:
-    from ..cli import load_from_args
+    from ..budget import uncertainty_budget
+    from ..cli import budget_inputs_from_args, load_from_args
     from ..derived import design_values
     from ..fitting.least_squares import fit
     from ..fitting.selection import fit_auto
     from ..outputs.report import fit_to_json
 
-    measurement, _ = load_from_args(_namespace(job))
+    namespace = _namespace(job)
+    limits = budget_inputs_from_args(namespace)
+    measurement, _ = load_from_args(namespace)
+
+    def record_of(result) -> dict:
+        budget = uncertainty_budget(result, limits, job.at)
+        return fit_to_json(result, None, design_values(result, job.at), None, budget=budget)
+
     constraints = dict(fixed=job.fixed, guesses=job.guesses, bounds=job.bounds, intervals=job.intervals)
     candidates: dict[str, dict] = {}
     if job.model.strip().lower() == "auto":
         selection = fit_auto(measurement, **constraints)
         for ranked in selection.ranking:
             if ranked.result is not None:
-                record = fit_to_json(ranked.result, None, design_values(ranked.result, job.at), None)
+                record = record_of(ranked.result)
                 record["adequate"], record["note"] = bool(ranked.adequate), ranked.note
                 candidates[ranked.expression] = record
         chosen = selection.chosen.circuit.expression
     else:
         result = fit(measurement, job.model, **constraints)
         chosen = result.circuit.expression
-        candidates[chosen] = fit_to_json(result, None, design_values(result, job.at), None)
+        candidates[chosen] = record_of(result)
     z = measurement.impedance
     curve = {"frequency_Hz": measurement.frequency.tolist(), "abs_ohm": np.abs(z).tolist(),
              "phase_deg": np.degrees(np.angle(z)).tolist()}

@@ -65,6 +65,9 @@ class LotSettings:
         Spec limits (syntax in :mod:`fitz_tool.lot.spec`); their design-value frequencies are added to ``at``.
     per_file_model : bool
         With ``auto``: keep each file's own choice instead of one model for the lot.
+    budget : dict
+        Stated accuracy limits as text (``fitz_tool.lot.job.BUDGET_FIELDS``) for the uncertainty budget
+        whose expanded uncertainty guard-bands the verdicts; empty: noise only.
     """
 
     model: str = "auto"
@@ -76,6 +79,7 @@ class LotSettings:
     at: dict = field(default_factory=dict)
     specs: tuple[str, ...] = ()
     per_file_model: bool = False
+    budget: dict = field(default_factory=dict)
 
     @property
     def is_auto(self) -> bool:
@@ -134,11 +138,12 @@ def _jobs(items: Sequence[LotItem], settings: LotSettings,
         reading.update(item.options)
         job = PartJob(file=item.file, reading=reading, model=model, fixed=dict(settings.fixed),
                       guesses=dict(settings.guesses), bounds={k: list(v) for k, v in settings.bounds.items()},
-                      intervals=settings.intervals, at=frequencies)
+                      intervals=settings.intervals, at=frequencies,
+                      budget={k: v for k, v in settings.budget.items() if v not in (None, "")})
         sha = file_sha256(item.file)
         standards = [file_sha256(path) for path in job.standards()]
         options = {"reading": reading, "fixed": job.fixed, "guesses": job.guesses, "bounds": job.bounds,
-                   "intervals": job.intervals, "at": list(frequencies)}
+                   "intervals": job.intervals, "at": list(frequencies), "budget": job.budget}
         key = result_key(sha, standards, model, options, __version__)
         storable = bool(sha) and all(standards)
         planned.append(({"file": item.file, "part": item.part, "conditions": dict(item.conditions),
@@ -178,8 +183,9 @@ def _execute(jobs: Mapping[str, PartJob], on_result: Callable[[str, dict], None]
         import multiprocessing
 
         context = multiprocessing.get_context("forkserver")
+        # the worker's imports are done once in the fork server, not in every worker
         context.set_forkserver_preload(["fitz_tool.lot.job", "fitz_tool.fitting.selection",
-                                        "fitz_tool.derived", "fitz_tool.outputs.report", "fitz_tool.cli"])
+                                        "fitz_tool.derived", "fitz_tool.outputs.report", "fitz_tool.budget"])
         executor = ProcessPoolExecutor(max_workers=min(workers, len(jobs)), mp_context=context)
     try:
         futures = {}

@@ -6,8 +6,10 @@ circuit parameter (``L1``), ``SRF`` (the lowest self-resonance inside the sweep)
 frequency ``VALUE@FREQ`` with VALUE one of ``L_eff``, ``C_eff``, ``ESR``, ``abs_Z``, ``phase``, ``Q``, ``D``
 (``ESR@100k``).
 
-Decision rule (guard-banding against the expanded uncertainty ``U = k u`` with ``k = 2``; guarded
-acceptance and guarded rejection as in the decision rules of ILAC-G8, from memory; common practice):
+Decision rule (guard-banding against the expanded uncertainty U; guarded acceptance and guarded rejection
+as in the decision rules of ILAC-G8, from memory; common practice). U is the value's expanded uncertainty
+from the uncertainty budget (:mod:`fitz_tool.budget`, GUM: ``U = k u_c`` with ``k = t_95.45(nu_eff)``,
+about 2), or ``COVERAGE_FACTOR`` (2) times the fit's standard error where the budget gives none:
 
 - ``pass``: the whole interval ``[x - U, x + U]`` lies inside the limits;
 - ``fail``: the whole interval lies outside a limit (``x + U < LOW`` or ``x - U > HIGH``);
@@ -102,15 +104,13 @@ def parse_spec(text: str) -> Spec:
     raise InputError(f"--spec {text!r}: expected {forms}")
 
 
-def verdict(spec: Spec, value: float | None, stderr: float | None,
-            coverage: float = COVERAGE_FACTOR) -> str:
-    """``pass``, ``fail`` or ``marginal`` for a value (SI) with standard uncertainty ``stderr`` (rule above).
-    """
+def verdict(spec: Spec, value: float | None, expanded: float | None) -> str:
+    """``pass``, ``fail`` or ``marginal`` for a value (SI) with expanded uncertainty ``expanded`` (SI, the
+    half-width U; rule above)."""
     if value is None or not math.isfinite(value):
         return "marginal"
-    if stderr is None or not math.isfinite(stderr):
+    if expanded is None or not math.isfinite(expanded):
         return "marginal"
-    expanded = coverage * stderr
     if value + expanded < spec.low or value - expanded > spec.high:
         return "fail"
     if spec.low <= value - expanded and value + expanded <= spec.high:

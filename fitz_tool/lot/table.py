@@ -1,9 +1,10 @@
 """The lot table: one row per file with its conditions, status, values (SI) with standard errors, verdicts.
 
 Columns, in order: ``file``, ``part``, the condition columns, ``status`` (``ok``/``error``), ``error`` (one
-line), ``model``, every parameter ``NAME`` and ``NAME_stderr``, ``SRF`` and ``SRF_stderr`` (the lowest
-self-resonance inside the sweep; empty when there is none), design values ``VALUE@FREQ`` and their
-``_stderr`` for each operating frequency, ``spec_NAME`` verdicts, and ``verdict`` (``pass``, ``fail``,
+line), ``model``, every parameter ``NAME`` with ``NAME_stderr`` (standard uncertainty) and ``NAME_U``
+(expanded uncertainty: the budget's, or 2 x the standard error; SI), ``SRF`` (the lowest self-resonance
+inside the sweep; empty when there is none), design values ``VALUE@FREQ`` for each operating frequency,
+each with its ``_stderr`` and ``_U``, ``spec_NAME`` verdicts, and ``verdict`` (``pass``, ``fail``,
 ``marginal``, ``error``, or empty when no spec was given).
 """
 
@@ -16,7 +17,7 @@ from pathlib import Path
 import pandas as pd
 
 from ..exceptions import InputError, OutputError
-from .spec import DESIGN_NAMES, Spec, combine_verdicts, split_design_name, verdict
+from .spec import COVERAGE_FACTOR, DESIGN_NAMES, Spec, combine_verdicts, split_design_name, verdict
 
 __all__ = ["quantity", "lot_table", "write_table", "known_names"]
 
@@ -25,28 +26,62 @@ def _nan(value) -> float:
     return math.nan if value is None else float(value)
 
 
-def quantity(record: Mapping, name: str, at: Mapping[str, float]) -> tuple[float, float]:
-    """(value, standard error) in SI of a parameter, ``SRF`` or ``VALUE@LABEL`` in a fit record; NaN when
-    the record does not have it (standard error NaN when the fit gave none)."""
+def _budget_key(name: str, at_hz: float | None = None, index: int | None = None,
+                n_resonances: int = 1) -> str:
+    """The uncertainty budget's name of a quantity (``"SRF"``/``"SRF 2"``, ``"ESR at 100 kHz"``)."""
+    from ..budget.combination import frequency_text
+
+    if name == "SRF":
+        return "SRF" if n_resonances <= 1 else f"SRF {index + 1}"
+    if at_hz is not None:
+        return f"{name} at {frequency_text(at_hz)}"
+    return name
+
+
+def _expanded(record: Mapping, section: str, key: str, stderr: float) -> float:
+    """Expanded uncertainty U of a quantity: the budget's, else COVERAGE_FACTOR x the standard error."""
+    entry = (record.get("budget") or {}).get(section, {}).get(key)
+    if entry is not None and entry.get("expanded") is not None:
+        return float(entry["expanded"])
+    return COVERAGE_FACTOR * stderr
+
+
+def quantity(record: Mapping, name: str, at: Mapping[str, float]) -> tuple[float, float, float]:
+    """(value, standard error, expanded uncertainty U) in SI of a parameter, ``SRF`` or ``VALUE@LABEL`` in
+    a fit record; NaN when the record does not have it (errors NaN when the fit gave none).
+
+    U comes from the record's uncertainty budget when it has one for this quantity, else it is
+    ``COVERAGE_FACTOR`` times the standard error.
+    """
+    missing = (math.nan, math.nan, math.nan)
     if name in record["parameters"]:
         p = record["parameters"][name]
-        return _nan(p["value"]), _nan(p["stderr"])
+        value, stderr = _nan(p["value"]), _nan(p["stderr"])
+        return value, stderr, _expanded(record, "parameters", name, stderr)
     derived = record["derived"]
     if name == "SRF":
-        inside = [r["frequency"] for r in derived["resonances"] if r["in_sweep"] and r["frequency"]["value"]]
+        resonances = derived["resonances"]
+        inside = [(i, r["frequency"]) for i, r in enumerate(resonances)
+                  if r["in_sweep"] and r["frequency"]["value"]]
         if not inside:
-            return math.nan, math.nan
-        low = min(inside, key=lambda v: v["value"])
-        return _nan(low["value"]), _nan(low["stderr"])
+            return missing
+        index, low = min(inside, key=lambda item: item[1]["value"])
+        value, stderr = _nan(low["value"]), _nan(low["stderr"])
+        key = _budget_key("SRF", index=index, n_resonances=len(resonances))
+        return value, stderr, _expanded(record, "design", key, stderr)
     design = split_design_name(name)
     if design is None or design[1] not in at:
-        return math.nan, math.nan
+        return missing
     value_name, label = design
     for point in derived["at"]:
         if point["frequency"] is not None and math.isclose(point["frequency"], at[label], rel_tol=1e-9):
             v = point["values"].get(value_name)
-            return (math.nan, math.nan) if v is None else (_nan(v["value"]), _nan(v["stderr"]))
-    return math.nan, math.nan
+            if v is None:
+                return missing
+            value, stderr = _nan(v["value"]), _nan(v["stderr"])
+            key = _budget_key(value_name, at_hz=point["frequency"])
+            return value, stderr, _expanded(record, "design", key, stderr)
+    return missing
 
 
 def known_names(record: Mapping, at: Mapping[str, float]) -> set[str]:
@@ -96,7 +131,7 @@ def lot_table(items: Sequence[Mapping], payloads: Mapping[str, Mapping], models:
             rows.append(row)
             continue
         row.update(status="ok", error="", model=record["model"])
-        values: dict[str, tuple[float, float]] = {}
+        values: dict[str, tuple[float, float, float]] = {}
         for name in record["parameters"]:
             parameters[name] = None
             values[name] = quantity(record, name, at)
@@ -113,19 +148,19 @@ def lot_table(items: Sequence[Mapping], payloads: Mapping[str, Mapping], models:
     spec_names = {s.name for s in specs}
     columns = ["file", "part", *conditions, "status", "error", "model"]
     for name in [*parameters, *design, *(s for s in spec_names if s not in parameters and s not in design)]:
-        columns += [name, f"{name}_stderr"]
+        columns += [name, f"{name}_stderr", f"{name}_U"]
     columns += [s.column for s in specs] + ["verdict"]
     out = []
     for row in rows:
         values = row.pop("_values", {})
         flat = {c: row.get(c, "") for c in ("file", "part", *conditions, "status", "error", "model")}
-        for name, (value, stderr) in values.items():
-            flat[name], flat[f"{name}_stderr"] = value, stderr
+        for name, (value, stderr, expanded) in values.items():
+            flat[name], flat[f"{name}_stderr"], flat[f"{name}_U"] = value, stderr, expanded
         if row["status"] != "ok":
             flat["verdict"] = "error"
             flat.update({s.column: "" for s in specs})
         elif specs:
-            judged = [verdict(s, *values.get(s.name, (math.nan, math.nan))) for s in specs]
+            judged = [verdict(s, values[s.name][0], values[s.name][2]) for s in specs]
             flat.update({s.column: v for s, v in zip(specs, judged, strict=True)})
             flat["verdict"] = combine_verdicts(judged)
         else:

@@ -26,9 +26,10 @@ from .report import SAFETY_LINE
 __all__ = ["quantity_units", "format_lot_summary", "lot_figures", "render_lot_html", "compare_table",
            "format_comparison", "GUARD_BAND_RULE"]
 
-GUARD_BAND_RULE = (f"verdicts guard-banded by the expanded uncertainty U = {COVERAGE_FACTOR:g} x standard "
-                   "uncertainty: pass when [x - U, x + U] lies inside the limits, fail when it lies wholly "
-                   "outside, marginal otherwise (or when x has no uncertainty)")
+GUARD_BAND_RULE = ("verdicts guard-banded by the expanded uncertainty U of the uncertainty budget (GUM, "
+                   f"k about 2; {COVERAGE_FACTOR:g} x the standard error where the budget gives none): pass "
+                   "when [x - U, x + U] lies inside the limits, fail when it lies wholly outside, marginal "
+                   "otherwise (or when x has no uncertainty)")
 _DESIGN_UNITS = {"L_eff": "H", "C_eff": "F", "ESR": "ohm", "abs_Z": "ohm", "phase": "deg", "Q": "", "D": ""}
 
 
@@ -68,7 +69,7 @@ def _stats_rows(result: LotResult, stats: LotStats) -> list[tuple[str, ...]]:
     units = quantity_units(result)
     return [(q.name, str(q.count), _fmt(q.mean, units.get(q.name, "")), _fmt(q.std, units.get(q.name, "")),
              _fmt(q.minimum, units.get(q.name, "")), _fmt(q.maximum, units.get(q.name, "")))
-            for q in stats.quantities if not q.name.endswith(("_stderr",))]
+            for q in stats.quantities]
 
 
 def _spec_rows(result: LotResult, stats: LotStats) -> list[tuple[str, ...]]:
@@ -92,8 +93,9 @@ def format_lot_summary(result: LotResult, stats: LotStats) -> str:
     lines += ["", "Statistics over the parts with a result:"] + _text_table(_stats_rows(result, stats),
                                                                            _STATS_HEADER)
     if stats.specs:
-        lines += ["", "Spec limits (" + GUARD_BAND_RULE + "):"]
+        lines += ["", "Spec limits and verdicts:"]
         lines += _text_table(_spec_rows(result, stats), _SPEC_HEADER)
+        lines.append(f"  rule: {GUARD_BAND_RULE}")
         v = stats.verdicts
         lines.append(f"  parts: {v['pass']} pass, {v['marginal']} marginal, {v['fail']} fail, "
                      f"{v['error']} error; yield {100 * stats.yield_fraction:.1f} % of the parts with a "
