@@ -206,3 +206,24 @@ def test_accuracy_table_interpolates_in_log_frequency_and_refuses_outside(tmp_pa
         ft.read_accuracy_table(bad)
     with pytest.raises(InputError, match="not both"):
         BudgetInputs(magnitude_accuracy=0.01, accuracy_table=table)
+
+
+def test_an_input_that_moves_a_value_past_first_order_is_named_and_the_monte_carlo_disagrees():
+    # 0.5 deg on a Q ~ 200 inductor: |Z| dphi (about 0.12 ohm at 100 kHz) exceeds Rs = 70 mohm, so Rs
+    # (fitted in log coordinates) cannot follow linearly; the JCGM 101 propagation shows it.
+    truth = {"Rs": 0.07, "L1": 22e-6}
+    f = np.geomspace(50e3, 200e3, 15)
+    result = ft.fit(_bench("Rs + L1", truth, f, 1e-3, 0.01, seed=7), "Rs + L1")
+    inputs = BudgetInputs(phase_accuracy=math.radians(0.5))
+    budget = uncertainty_budget(result, inputs)
+    assert "may not hold" in budget.parameters["Rs"].note
+    assert "may not hold" not in budget.parameters["L1"].note
+    assert "may not hold for Rs" in budget.note
+    checked = uncertainty_budget(result, inputs, monte_carlo=100, seed=1)
+    rs = checked.parameters["Rs"]
+    # first order reaches a negative resistance; the refits cannot, so the Monte Carlo interval starts near 0
+    # and is narrower than y +/- U (a rectangular input dominates: k = 2 is conservative, GUM G.2.3)
+    assert rs.value - rs.expanded < 0
+    assert rs.monte_carlo.low > -0.05 * rs.value
+    assert rs.monte_carlo.interval_ratio < 0.85 and "narrower" in rs.monte_carlo.note
+    assert checked.parameters["L1"].monte_carlo.agrees

@@ -46,6 +46,8 @@ COVERAGE_PROBABILITY = 0.9545
 #: Fraction of each input's first-order step by which design values are displaced (central difference).
 _H = 1e-3
 _LN10 = math.log(10.0)
+#: A type B input moving a value by more than this fraction at its limit gets a note (first order doubtful).
+NONLINEAR_FRACTION = 0.3
 #: Source key of the type A (noise) contribution.
 NOISE_KEY = "noise"
 
@@ -73,7 +75,9 @@ class MonteCarloCheck:
     """The Monte Carlo propagation of the same budget (JCGM 101:2008) for one value.
 
     ``u`` is the standard deviation of the draws; ``low``, ``high`` the probabilistically symmetric 95.45 %
-    coverage interval; ``agrees`` whether the first-order budget is validated (see ``note``).
+    coverage interval; ``agrees`` whether ``u`` agrees with the first-order u_c within the draws' own scatter;
+    ``interval_ratio`` the width of [low, high] over the width of y +/- U (below 1 where a rectangular input
+    dominates, so that k = 2 is conservative).
     """
 
     draws: int
@@ -82,6 +86,7 @@ class MonteCarloCheck:
     high: float
     agrees: bool
     note: str
+    interval_ratio: float = math.nan
 
 
 @dataclass(frozen=True)
@@ -221,6 +226,12 @@ def _entry(name: str, label: str, value: float, unit: str, u_noise: float | None
     if missing:
         note = "; ".join(filter(None, [note, f"no sensitivity to {', '.join(missing)} (the value is not "
                                                   "defined on both displaced fits)"]))
+    large = [s.label for s, c in known if abs(c) * math.sqrt(3) > NONLINEAR_FRACTION * abs(value)]
+    if large and unit != "deg":
+        note = "; ".join(filter(None, [note, (
+            f"at its stated limit the {' and the '.join(large)} moves this value by more than "
+            f"{NONLINEAR_FRACTION * 100:.0f} %: the first-order budget may not hold here, check it with the "
+            "Monte Carlo propagation (--budget-mc)")]))
     if u_noise is None or missing:
         u_c = None
         note = note or "no noise (type A) uncertainty from the fit for this value"
@@ -322,6 +333,10 @@ def uncertainty_budget(result: FitResult, inputs: BudgetInputs | None = None, at
                 "offset common to the whole sweep; sensitivities by the fit's normal equations; "
                 "combined with "
                 "the noise (type A); k from the t-distribution with Welch-Satterthwaite nu_eff (95.45 %)")
+    doubtful = [n for n, e in parameters.items() if "may not hold" in e.note]
+    if doubtful and not monte_carlo:
+        note += (f". The first-order budget may not hold for {', '.join(doubtful)} and the values that "
+                 "depend on them; check it with the Monte Carlo propagation (--budget-mc)")
     budget = Budget(parameters, design, sources, note)
     if monte_carlo:
         from .montecarlo import monte_carlo_check

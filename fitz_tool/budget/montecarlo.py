@@ -6,7 +6,7 @@ same weighted residual, exact Jacobian); the noise (type A) enters as a draw fro
 a multivariate t-distribution with ``nu_A`` degrees of freedom when the noise level was estimated
 (JCGM 101 6.4.9), a normal one when the stated sigmas were trusted. Design values are recomputed on every
 drawn fit. Per value: standard deviation of the draws and the probabilistically symmetric 95.45 % coverage
-interval (JCGM 101 7.7).
+interval (JCGM 101 7.7), and its width relative to the width of ``y +/- U``.
 
 Agreement. JCGM 101 section 8 validates a first-order budget when the ends of ``y +/- U`` and of the Monte
 Carlo interval differ by less than a numerical tolerance; with the few thousand draws a bench run affords,
@@ -29,6 +29,7 @@ from ..derived import design_values
 from ..exceptions import InputError
 from ..fitting.problem import FitProblem
 from ..results import FitResult
+from ..units import format_to_resolution
 from .combination import Budget, BudgetEntry, MonteCarloCheck, design_items, with_internal
 
 __all__ = ["monte_carlo_check", "MIN_DRAWS"]
@@ -69,12 +70,22 @@ def _check(entry: BudgetEntry, samples: np.ndarray, draws: int) -> MonteCarloChe
     ratio = u / entry.u_combined if entry.u_combined > 0 else math.inf
     agrees = abs(ratio - 1) <= max(2 * scatter, 0.05)
     width = (high - low) / (2 * entry.expanded) if entry.expanded else math.inf
+    def show(v: float) -> str:
+        if entry.unit == "deg":
+            return f"{format_to_resolution(v, '', u)} deg"
+        return format_to_resolution(v, entry.unit, u)
+
+    ends = (f"[{show(low)}, {show(high)}] against y +/- U = [{show(entry.value - entry.expanded)}, "
+            f"{show(entry.value + entry.expanded)}]")
     note = (f"Monte Carlo ({good.size} draws): u = {ratio:.3f} x the first-order u_c "
             f"({'agrees' if agrees else 'DIFFERS'}; the draws' own scatter is about {scatter * 100:.0f} %); "
-            f"its 95.45 % interval is {width:.2f} x the width of y +/- U")
+            f"its 95.45 % interval {ends}, {width:.2f} x the width")
+    if agrees and abs(width - 1) > max(0.1, 2 * scatter):
+        note += (" (narrower: a rectangular input dominates and k = 2 is conservative)" if width < 1 else
+                 " (wider: the distribution has long tails; use the Monte Carlo interval)")
     if not agrees:
         note += "; the first-order budget is not adequate here, use the Monte Carlo figures"
-    return MonteCarloCheck(int(good.size), u, low, high, bool(agrees), note)
+    return MonteCarloCheck(int(good.size), u, low, high, bool(agrees), note, float(width))
 
 
 def monte_carlo_check(budget: Budget, result: FitResult, problem: FitProblem, x0: np.ndarray,

@@ -42,7 +42,7 @@ def _value(e: BudgetEntry) -> str:
 
 
 def _relative(x: float | None, value: float) -> str:
-    return f" ({abs(x / value) * 100:.2g} %)" if x and value else ""
+    return f" ({float(f'{abs(x / value) * 100:.2g}'):g} %)" if x and value else ""
 
 
 def _input_columns(c: Contribution, unit: str) -> tuple[str, str, str]:
@@ -83,10 +83,11 @@ HEADER = ("source", "limit", "u(x_i)", "sensitivity c_i", "|c_i| u(x_i)", "share
 def _headline(e: BudgetEntry) -> str:
     if e.u_combined is None:
         return f"{e.name} = {_value(e)}: no combined uncertainty ({e.note})"
-    nu = "inf" if not math.isfinite(e.nu_eff) else f"{e.nu_eff:.0f}"
+    nu = ("= inf" if not math.isfinite(e.nu_eff) else f"= {e.nu_eff:.0f}" if e.nu_eff < 1e4
+          else "> 10^4")
     return (f"{e.name} = {_value(e)}: u_c = {_u(e.u_combined, e.unit)}{_relative(e.u_combined, e.value)}, "
             f"U = {_u(e.expanded, e.unit)}{_relative(e.expanded, e.value)} (k = {e.coverage_factor:.2f}, "
-            f"nu_eff = {nu})")
+            f"nu_eff {nu})")
 
 
 def _table(rows, header) -> list[str]:
@@ -162,7 +163,8 @@ def _entry_json(e: BudgetEntry) -> dict:
         "sensitivities": {c.key: _num(c.sensitivity) for c in e.contributions if c.key != NOISE_KEY},
         "dominant": e.dominant, "advice": e.advice, "note": e.note,
         "monte_carlo": None if mc is None else {"draws": mc.draws, "u": _num(mc.u), "low": _num(mc.low),
-                                                "high": _num(mc.high), "agrees": mc.agrees, "note": mc.note},
+                                                "high": _num(mc.high), "agrees": mc.agrees,
+                                                "interval_ratio": _num(mc.interval_ratio), "note": mc.note},
     }
 
 
