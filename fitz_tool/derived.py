@@ -11,6 +11,13 @@ covariance in SI units (or the covariance of ``result.uvars`` when the fit gives
 - self-resonance: a frequency where the model's X crosses zero; rising X (series resonance, |Z| minimum),
   falling X (parallel resonance, |Z| maximum). Its uncertainty follows from the implicit function theorem,
   ``df0/dp = -(dG/dp) / (dG/df)``, with G = X for a series and G = Im Y for a parallel resonance.
+- resonator Q of each self-resonance from the phase slope, ``Q = (f0 / 2) |d phase / df|`` at f0 (common
+  practice; for a series R-L-C it is (1/R) sqrt(L/C), for a parallel tank R sqrt(C/L)), its half-power
+  bandwidth f0 / Q; its uncertainty by central differences over the parameters (f0 re-found each time).
+- within half a bandwidth of a resonance, L_eff, C_eff, Q = |X|/R and D are "undefined at resonance"
+  (the reactance passes through zero there); ESR, |Z| and phase keep their values.
+- a value that depends (relative sensitivity above ``DEPENDS``) on a parameter the fit could not determine
+  (at a bound, or no bounded error) is "undetermined", never a number with a confident error.
 """
 
 from __future__ import annotations
@@ -26,10 +33,14 @@ from .exceptions import InputError
 from .results import FitResult
 
 __all__ = ["DerivedValue", "Resonance", "OperatingPoint", "DesignValues", "design_values",
-           "parameter_covariance", "frequency_derivative"]
+           "parameter_covariance", "frequency_derivative", "DEPENDS"]
 
 #: How far beyond each end of the sweep (factor in frequency) extrapolated resonances are searched.
 EXTRAPOLATION_FACTOR = 1e3
+#: Relative sensitivity |d ln q / d ln p| above which a value counts as built from parameter p.
+DEPENDS = 1e-3
+#: Values that lose their meaning where the reactance passes through zero.
+_REACTIVE_VALUES = ("L_eff", "C_eff", "Q", "D")
 
 
 @dataclass(frozen=True)
@@ -49,12 +60,22 @@ class Resonance:
     """A self-resonant frequency of the model (Hz).
 
     ``kind`` is ``"series"`` (X rises through zero: |Z| minimum) or ``"parallel"`` (X falls through zero:
-    |Z| maximum); ``in_sweep`` is False for an extrapolated resonance outside the measured range.
+    |Z| maximum); ``in_sweep`` is False for an extrapolated resonance outside the measured range;
+    ``quality`` is the resonator Q from the phase slope (see the module docstring), or None.
     """
 
     frequency: DerivedValue
     kind: str
     in_sweep: bool
+    quality: DerivedValue | None = None
+
+    @property
+    def bandwidth(self) -> float | None:
+        """Half-power bandwidth f0 / Q in Hz, or None without a finite positive Q."""
+        q = self.quality
+        if q is None or not (math.isfinite(q.value) and q.value > 0):
+            return None
+        return self.frequency.value / q.value
 
 
 @dataclass(frozen=True)
@@ -126,9 +147,14 @@ def frequency_derivative(result: FitResult, frequency: np.ndarray | float) -> np
 
 def _euler_derivative(result: FitResult, f: np.ndarray, gradient: dict[str, np.ndarray]) -> np.ndarray:
     """dZ/df (ohm/Hz) from the parameter gradient of Z at ``f`` (Hz), by the relation above."""
-    values = result.values
+    return _euler_derivative_at(result.circuit, result.values, f, gradient)
+
+
+def _euler_derivative_at(circuit, values: dict[str, float], f: np.ndarray,
+                         gradient: dict[str, np.ndarray]) -> np.ndarray:
+    """dZ/df (ohm/Hz) of ``circuit`` at parameter ``values`` from its parameter gradient at ``f`` (Hz)."""
     total = np.zeros(f.shape, dtype=complex)
-    for element in result.circuit.elements:
+    for element in circuit.elements:
         own = {spec.suffix: values[element.name + spec.suffix] for spec in element.record.parameters}
         for suffix, weight in element.record.frequency_weights(own).items():
             name = element.name + suffix
@@ -145,6 +171,17 @@ class _Propagation:
     covariance: np.ndarray | None
     note: str
     left_out: tuple[str, ...]
+    values: dict[str, float]
+    undetermined: dict[str, str]
+
+    def built_from_undetermined(self, gradient: dict[str, float], value: float) -> str:
+        """Why a value with ``gradient`` is undetermined (it moves with a parameter the data do not fix),
+        or "" when it is not."""
+        if not (math.isfinite(value) and value != 0):
+            return ""
+        hits = [f"{n} ({why})" for n, why in self.undetermined.items()
+                if abs(gradient.get(n, 0.0) * self.values[n] / value) > DEPENDS]
+        return f"undetermined: built from {', '.join(hits)}" if hits else ""
 
     def stderr(self, gradient: dict[str, float]) -> tuple[float | None, str]:
         """Standard uncertainty of a value with ``gradient`` {parameter: d value / d parameter}, and a note
@@ -165,11 +202,15 @@ class _Propagation:
 def _value(name, label, value, gradient, propagation: _Propagation, unit, note=None) -> DerivedValue:
     if not math.isfinite(value):
         return DerivedValue(name, label, float(value), None, unit, note or "not finite for this model")
+    undetermined = propagation.built_from_undetermined(gradient, value)
+    if undetermined:
+        return DerivedValue(name, label, math.nan, None, unit, undetermined)
     stderr, why = propagation.stderr(gradient)
     return DerivedValue(name, label, float(value), stderr, unit, "" if stderr is not None else note or why)
 
 
-def _operating_point(result: FitResult, f: float, propagation: _Propagation) -> OperatingPoint:
+def _operating_point(result: FitResult, f: float, propagation: _Propagation,
+                     resonances: Sequence[Resonance] = ()) -> OperatingPoint:
     z, grads = result.circuit.impedance_gradient(np.array([f]), result.values)
     z = complex(z[0])
     dz = {n: complex(g[0]) for n, g in grads.items()}
@@ -202,6 +243,14 @@ def _operating_point(result: FitResult, f: float, propagation: _Propagation) -> 
         q_value, d_value = (math.inf, 0.0) if x != 0 else (0.0, math.inf)
         add("Q", "quality factor Q = |X|/R", q_value, {}, "", why)
         add("D", "dissipation factor D = R/|X|", d_value, {}, "", why)
+    for res in resonances:
+        width = res.bandwidth
+        if width is not None and abs(f - res.frequency.value) < width / 2:
+            why = (f"undefined at resonance: {f:.4g} Hz lies within half a bandwidth ({width:.3g} Hz) of "
+                   f"the {res.kind} self-resonance at {res.frequency.value:.6g} Hz")
+            for key in _REACTIVE_VALUES:
+                if key in out:
+                    out[key] = DerivedValue(key, out[key].label, math.nan, None, out[key].unit, why)
     f_meas = result.measurement.frequency
     in_sweep = bool(f_meas[0] <= f <= f_meas[-1])
     return OperatingPoint(float(f), "inductive" if inductive else "capacitive", in_sweep, out)
@@ -238,8 +287,50 @@ def _find_resonances(result: FitResult, propagation: _Propagation) -> list[Reson
         else:
             value = DerivedValue("SRF", label, f0, None, "Hz",
                                  "reactance does not change with frequency here")
-        found.append(Resonance(value, kind, in_sweep))
+        found.append(Resonance(value, kind, in_sweep, _resonator_q(result, f0, label, propagation)))
     return found
+
+
+def _phase_slope_q(result: FitResult, values: dict[str, float], f0: float) -> float:
+    """(f0 / 2) |d phase / df| at f0 for parameter ``values`` (phase of Z in rad)."""
+    z = complex(result.circuit.impedance(np.array([f0]), values)[0])
+    _, grads = result.circuit.impedance_gradient(np.array([f0]), values)
+    dz_df = complex(_euler_derivative_at(result.circuit, values, np.array([f0]), grads)[0])
+    return float(f0 / 2 * abs((dz_df / z).imag))
+
+
+def _refind(result: FitResult, values: dict[str, float], f0: float) -> float | None:
+    """The reactance zero nearest ``f0`` (Hz) for perturbed ``values``, within +/- 1 %."""
+    def reactance(log_f: float) -> float:
+        return float(result.circuit.impedance(np.array([math.exp(log_f)]), values)[0].imag)
+
+    low, high = math.log(f0 * 0.99), math.log(f0 * 1.01)
+    if reactance(low) * reactance(high) > 0:
+        return None
+    return math.exp(brentq(reactance, low, high, xtol=1e-15, rtol=1e-15))
+
+
+def _resonator_q(result: FitResult, f0: float, label: str, propagation: _Propagation) -> DerivedValue:
+    """Resonator Q of the resonance at f0 with its first-order uncertainty (central differences)."""
+    name, what = "Q_resonator", f"resonator Q of the {label} (f0 / bandwidth)"
+    values = dict(result.values)
+    z0 = complex(result.circuit.impedance(np.array([f0]), values)[0])
+    if not abs(z0.imag) <= 1e-6 * abs(z0.real):  # X changes sign through a pole: a loop with no loss
+        return DerivedValue(name, what, math.inf, None, "",
+                            "no loss in the model's resonating loop, so the resonance has no finite width")
+    q = _phase_slope_q(result, values, f0)
+    gradient: dict[str, float] = {}
+    for pname in propagation.names or tuple(values):
+        step = 1e-6 * values[pname] if values[pname] != 0 else 1e-12
+        sides = []
+        for sign in (1, -1):
+            trial = dict(values)
+            trial[pname] = values[pname] + sign * step
+            f_trial = _refind(result, trial, f0)
+            sides.append(None if f_trial is None else _phase_slope_q(result, trial, f_trial))
+        if None not in sides:
+            gradient[pname] = (sides[0] - sides[1]) / (2 * step)
+    return _value(name, what, q, gradient, propagation, "")
 
 
 def design_values(result: FitResult, at: Sequence[float] = ()) -> DesignValues:
@@ -269,9 +360,10 @@ def design_values(result: FitResult, at: Sequence[float] = ()) -> DesignValues:
     elif covariance is not None and not np.all(np.isfinite(covariance)):
         covariance, note = None, "no uncertainty: the fit's covariance is not finite"
     left_out = tuple(n for n, p in result.parameters.items() if p.vary and n not in names)
-    propagation = _Propagation(tuple(names), covariance, note, left_out)
-    points = tuple(_operating_point(result, float(f), propagation) for f in at)
+    undetermined = {n: p.undetermined for n, p in result.parameters.items() if p.vary and p.undetermined}
+    propagation = _Propagation(tuple(names), covariance, note, left_out, dict(result.values), undetermined)
     resonances = tuple(_find_resonances(result, propagation))
+    points = tuple(_operating_point(result, float(f), propagation, resonances) for f in at)
     if any(r.in_sweep for r in resonances):
         resonance_note = ""
     elif resonances:

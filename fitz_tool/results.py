@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -50,6 +51,24 @@ class ParameterEstimate:
     stderr_note: str = ""
     interval: tuple[float, float] | None = None
     interval_note: str = ""
+
+    @property
+    def undetermined(self) -> str:
+        """Why the data do not determine this free parameter ("" when they do): at a bound, a profile
+        interval that is open or reaches 0, or a standard error larger than the value. (A parameter with
+        neither a standard error nor an interval is not judged here.)"""
+        if not self.vary:
+            return ""
+        if self.at_bound:
+            return f"at its {self.at_bound} bound"
+        if self.stderr is None and self.interval is not None:
+            low, high = self.interval
+            if low <= 0 or math.isinf(high) or (high - low) / 2 > abs(self.value):
+                return "not determined"
+            return ""
+        if self.stderr is not None and self.stderr > abs(self.value):
+            return "not determined"
+        return ""
 
 
 @dataclass(frozen=True)

@@ -47,18 +47,10 @@ def is_adequate(result: FitResult) -> tuple[bool, str]:
     if any(flag.startswith(SCATTER_FLAG) for flag in result.flags):
         problems.append("residuals far above the data's scatter")
     for p in result.parameters.values():
-        if not p.vary:
-            continue
-        if p.at_bound:
-            problems.append(f"{p.name} at its {p.at_bound} bound")
-        elif p.stderr is None and p.interval is not None:
-            low, high = p.interval
-            if low <= 0 or math.isinf(high) or (high - low) / 2 > abs(p.value):
-                problems.append(f"{p.name} not determined")
-        elif p.stderr is None:
+        if p.undetermined:
+            problems.append(f"{p.name} {p.undetermined}")
+        elif p.vary and p.stderr is None and p.interval is None:
             problems.append(f"{p.name} has no standard error")
-        elif p.stderr > abs(p.value):
-            problems.append(f"{p.name} not determined")
     return not problems, "; ".join(problems)
 
 

@@ -116,10 +116,11 @@ def _ranking(selection: ModelSelection | None) -> str:
 
 def _design(design: DesignValues) -> str:
     parts = []
-    rows = [(r.kind, "yes" if r.in_sweep else "no (extrapolated)", format_derived_value(r.frequency))
+    rows = [(r.kind, "yes" if r.in_sweep else "no (extrapolated)", format_derived_value(r.frequency),
+             format_derived_value(r.quality) if r.quality is not None else "")
             for r in design.resonances]
     if rows:
-        parts.append(_table(("self-resonance", "in the sweep", "frequency"), rows))
+        parts.append(_table(("self-resonance", "in the sweep", "frequency", "resonator Q"), rows))
     if design.resonance_note:
         parts.append(f"<p>Self-resonance: {_e(design.resonance_note)}</p>")
     for point in design.points:

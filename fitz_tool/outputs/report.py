@@ -108,6 +108,8 @@ def format_value(value: float, unit: str, stderr: float | None = None) -> str:
 
 def format_derived_value(value: DerivedValue) -> str:
     """A design value in engineering notation, or the reason it has no uncertainty."""
+    if math.isnan(value.value) and value.note.startswith(("undetermined", "undefined")):
+        return value.note
     if not math.isfinite(value.value):
         return f"{'infinite' if value.value > 0 else 'undefined'} ({value.note})"
     text = format_value(value.value, value.unit, value.stderr)
@@ -163,6 +165,8 @@ def design_lines(design: DesignValues) -> list[str]:
     for res in design.resonances:
         where = "in the sweep" if res.in_sweep else "extrapolated, outside the sweep"
         lines.append(f"  SRF ({res.kind}, {where}): {format_derived_value(res.frequency)}")
+        if res.quality is not None:
+            lines.append(f"    resonator Q: {format_derived_value(res.quality)}")
     if design.resonance_note:
         lines.append(f"  SRF: {design.resonance_note}")
     for point in design.points:
@@ -231,7 +235,8 @@ def _derived_json(v: DerivedValue) -> dict:
 def derived_to_json(design: DesignValues) -> dict:
     """The ``derived`` section: resonances and operating points, SI."""
     return {
-        "resonances": [{"kind": r.kind, "in_sweep": r.in_sweep, "frequency": _derived_json(r.frequency)}
+        "resonances": [{"kind": r.kind, "in_sweep": r.in_sweep, "frequency": _derived_json(r.frequency),
+                        "resonator_q": _derived_json(r.quality) if r.quality is not None else None}
                        for r in design.resonances],
         "resonance_note": design.resonance_note,
         "at": [{"frequency": _num(p.frequency), "character": p.character, "in_sweep": p.in_sweep,
