@@ -278,6 +278,15 @@ def _finite(value: float, what: str) -> float:
     return value
 
 
+def _typed_unit(name: str) -> str:
+    """The unit a value of parameter ``name`` may be typed with (``Cp=12pF``, ``Rs=10mOhm``), from the kind
+    registry; "" (a bare number) for units that cannot be typed, such as a constant phase element's."""
+    from .circuit import unit_of_parameter
+
+    unit = unit_of_parameter(name) or ""
+    return unit if unit.isalpha() else ""
+
+
 def _parse_named_values(items: Sequence[str], option: str) -> dict[str, float]:
     values: dict[str, float] = {}
     for item in items:
@@ -285,7 +294,8 @@ def _parse_named_values(items: Sequence[str], option: str) -> dict[str, float]:
         if name in values:
             raise InputError(f"{option} {name} given twice ({name}={values[name]:g} and {item}); "
                              f"give it once")
-        values[name] = _finite(parse_quantity(text, "", f"{option} {name}"), f"{option} {name}")
+        what = f"{option} {name}"
+        values[name] = _finite(parse_quantity(text, _typed_unit(name), what), what)
     return values
 
 
@@ -298,8 +308,8 @@ def _parse_bounds(items: Sequence[str]) -> dict[str, tuple[float, float]]:
         if name in bounds:
             raise InputError(f"--bound {name} given twice; give one range per parameter")
         low, high = text.split(":", 1)
-        low_value = parse_quantity(low, "", f"--bound {name} low")
-        high_value = parse_quantity(high, "", f"--bound {name} high")
+        low_value = parse_quantity(low, _typed_unit(name), f"--bound {name} low")
+        high_value = parse_quantity(high, _typed_unit(name), f"--bound {name} high")
         if math.isnan(low_value) or math.isnan(high_value) or not low_value < high_value:
             raise InputError(f"--bound {item!r}: the low limit must be below the high limit")
         bounds[name] = (low_value, high_value)

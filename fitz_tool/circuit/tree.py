@@ -22,7 +22,7 @@ from ..exceptions import ModelSyntaxError
 from ..limits import MAX_DEPTH, MAX_ELEMENTS
 from .kinds import ELEMENT_KINDS, ElementKind
 
-__all__ = ["Element", "Series", "Parallel", "Node", "Circuit", "parse_circuit", "MAX_ELEMENTS", "MAX_DEPTH"]
+__all__ = ["Element", "Series", "Parallel", "Node", "Circuit", "parse_circuit", "unit_of_parameter"]
 
 
 
@@ -147,6 +147,18 @@ class _Parser:
         if self.pos < len(self.tokens):
             self.error(f"unexpected {self.tokens[self.pos][1]!r}")
         return node
+
+
+def unit_of_parameter(name: str) -> str | None:
+    """SI unit of a parameter named as in expressions (``"Cp"`` -> ``"F"``, ``"P1_n"`` -> ``""``), read from
+    the kind registry by the name's first letter; None when the letter is no kind."""
+    kind = ELEMENT_KINDS.get(name[:1])
+    if kind is None:
+        return None
+    for spec in sorted(kind.parameters, key=lambda s: -len(s.suffix)):
+        if name.endswith(spec.suffix) and len(name) > len(spec.suffix):
+            return spec.unit
+    return None
 
 
 def parse_circuit(expression: str) -> Node:

@@ -83,7 +83,10 @@ def _boxes(circuit: Circuit, m: Measurement, free: tuple[str, ...],
             b_lo[i], b_hi[i] = lo[i] - BOUND_DECADES, hi[i] + BOUND_DECADES
         if name in bounds:
             low, high = bounds[name]
-            b_lo[i], b_hi[i] = (_internal(circuit, name, v, "bound") for v in (low, high))
+            default_low = min(b_lo[i], np.log10(high) - BOUND_DECADES) if high > 0 else b_lo[i]
+            b_lo[i], b_hi[i] = (_internal(circuit, name, v, "bound")
+                                if not (v == 0 and not spec.exponent) else default_low
+                                for v in (low, high))  # a lower bound of 0: as low as the fit goes
             if not b_lo[i] < b_hi[i]:
                 raise InputError(f"bound {name}={low:g}:{high:g}: the lower limit must be below the upper")
             lo[i], hi[i] = max(lo[i], b_lo[i]), min(hi[i], b_hi[i])
