@@ -405,7 +405,7 @@ def _cmd_fit(args) -> int:
     budget = uncertainty_budget(result, limits, at, monte_carlo=args.budget_mc)
     from .drive import model_from_fit
 
-    drive, drive_inputs = _drive_from_args(args, model_from_fit(result), "drive-")
+    drive, drive_inputs = _drive_from_args(args, model_from_fit(result, budget), "drive-")
     inputs += drive_inputs
     record = run_record(args, inputs, __version__)
 
@@ -474,6 +474,9 @@ def _add_drive_source(group, prefix: str) -> None:
                        help="period of the record when it is not whole periods (the last whole ones "
                             "are used)")
     group.add_argument(f"--{prefix}column", metavar="HEADER", help="value column when the record has several")
+    group.add_argument(f"--{prefix}bandwidth", metavar="FREQ",
+                       help="drop the record's content above FREQ (probe noise), as a scope's bandwidth "
+                            "limit does, e.g. 20M")
     group.add_argument("--allow-extrapolation", action="store_true",
                        help="accept a drive with most of its AC content outside the fitted band")
 
@@ -497,6 +500,11 @@ def _drive_from_args(args, model, prefix: str):
         waveform = read_waveform(path, "current" if current else "voltage", period,
                                  getattr(args, f"{key}column"))
         inputs = [path]
+    bandwidth = getattr(args, f"{key}bandwidth")
+    if bandwidth:
+        from .drive import band_limited
+
+        waveform = band_limited(waveform, parse_quantity(bandwidth, "Hz", f"--{prefix}bandwidth"))
     return drive_response(model, waveform, args.allow_extrapolation), inputs
 
 

@@ -8,6 +8,7 @@ import pytest
 from fitz_tool.circuit import Circuit
 from fitz_tool.drive import (
     DriveModel,
+    band_limited,
     dc_resistance,
     drive_response,
     drive_waveform,
@@ -159,3 +160,32 @@ def test_record_errors(tmp_path):
     path.write_text("Time (us),I (mV)\n" + "\n".join(f"{k},{k}" for k in range(10)))
     with pytest.raises(InputError, match="expected A"):
         read_waveform(path, "current")
+
+
+def test_stated_limits_add_to_the_uncertainty_of_the_loss():
+    # P = I_rms^2 Rs is linear in Rs, so u(P) = I_rms^2 u(Rs) for each covariance (GUM 5.1.2, first order)
+    m = model("Rs + C1", {"Rs": 0.02, "C1": 47e-6}, {"Rs": 0.001, "C1": 1e-6})
+    budget = np.diag([0.001**2 + 0.002**2, 1e-12 + 4e-12])
+    m = DriveModel(m.circuit, m.values, m.names, m.covariance, m.band, "test", "", budget)
+    result = drive_response(m, drive_waveform("sine:1.5Arms@100k"))
+    assert result.power.u_combined == pytest.approx(1.5**2 * math.sqrt(0.001**2 + 0.002**2), rel=1e-6)
+    assert result.current["rms"].u_combined == 0.0
+
+
+def test_bandwidth_limit_removes_probe_noise_but_keeps_the_ripple():
+    rng = np.random.default_rng(1)
+    clean = drive_waveform("sine:1A@100k", samples_per_period=4096)
+    noisy = waveform_from_samples(np.arange(4096) * 10e-6 / 4096, clean.samples
+                                  + 0.01 * rng.standard_normal(4096), "current", "probe")
+    limited = band_limited(noisy, 2e6)
+    # white noise of 10 mA rms over a 204.8 MHz Nyquist band; a Gaussian |H| = exp(-ln2/2 (f/B)^2) passes a
+    # noise bandwidth of integral |H|^2 df = B sqrt(pi / (4 ln 2)) (common practice, no source)
+    residual = limited.samples - band_limited(clean, 2e6).samples
+    passed = 2e6 * math.sqrt(math.pi / (4 * math.log(2))) / 204.8e6
+    assert np.sqrt(np.mean(residual**2)) == pytest.approx(0.01 * math.sqrt(passed), rel=0.2)
+    # the 100 kHz sine itself passes with exp(-ln2/2 (0.05)^2) = 0.99913
+    assert drive_response(model("Rs", {"Rs": 1.0}), limited).harmonics[0].current_amplitude.value == \
+        pytest.approx(math.exp(-math.log(2) / 2 * 0.05**2), rel=2e-3)
+    assert any("removed" in s for s in limited.steps)
+    with pytest.raises(InputError, match="positive"):
+        band_limited(noisy, 0.0)

@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 from spice_sim import ac_analysis, require_ngspice
 
-from fitz_tool.drive import drive_response, drive_waveform, model_from_fit
+from fitz_tool.circuit import Circuit
+from fitz_tool.drive import DriveModel, drive_response, drive_waveform, model_from_fit, read_waveform
 from fitz_tool.fitting.least_squares import fit
 from fitz_tool.measurement import Measurement
 from fitz_tool.outputs.spice import to_spice_subcircuit
@@ -36,12 +37,12 @@ def simulated_fit(expression: str, netlist: str, band: tuple[float, float]):
     return fit(Measurement(f, z, sigma_lnmag=SIGMA, sigma_phase=SIGMA, sigma_absolute=True), expression)
 
 
-def transient(part: str, corners, frequency: float, dc: float, periods: int = 6):
+def transient(part: str, corners, frequency: float, dc: float, periods: int = 6, last: int = 1):
     """ngspice transient of ``part`` (between node a and ground) under a periodic PWL current.
 
     ``corners`` are (fraction of the period, current) pairs of one period; returns time, voltage and current
-    of the last period. ``uic`` starts from rest (a DC operating point is undefined for a capacitor fed by a
-    current source); both parts settle within a period (the choke's slow mode is L / (Rs + Rp), ns).
+    of the ``last`` periods. ``uic`` starts from rest (a DC operating point is undefined for a capacitor fed
+    by a current source); both parts settle within a period (the choke's slow mode is L / (Rs + Rp), ns).
     """
     exe = require_ngspice()
     period = 1 / frequency
@@ -60,7 +61,7 @@ def transient(part: str, corners, frequency: float, dc: float, periods: int = 6)
         if not out.exists():
             raise RuntimeError(f"ngspice failed:\n{run.stdout}\n{run.stderr}")
         data = np.loadtxt(out)
-    keep = data[:, 0] >= (periods - 1) * period * (1 - 1e-12)
+    keep = data[:, 0] >= (periods - last) * period * (1 - 1e-12)
     return data[keep, 0], data[keep, 1], data[keep, 3]
 
 
@@ -91,3 +92,21 @@ def test_drive_response_matches_ngspice_transient(bench):
 
 def drive_value(drive, key):
     return drive.power.value if key == "power" else drive.voltage[key].value
+
+
+def test_simulator_record_of_the_current_gives_the_simulated_voltage(tmp_path):
+    # The ngspice transient's own current (adaptive, non-uniform time steps, several periods, SI with no
+    # units in the header) read as a record with --period: the response must match ngspice's voltage.
+    expression, netlist, band, corners, frequency, dc, _ = CAPACITOR
+    values = {"Rs": 6e-3, "Ls": 1.8e-9, "C1": 330e-6}
+    model = DriveModel(Circuit.parse(expression), values, (), None, band, "true circuit")
+    t, v, i = transient(netlist, corners, frequency, dc, periods=3, last=2)
+    record = tmp_path / "tran.csv"
+    record.write_text("time,i(vsense)\n" + "\n".join(f"{a:.15g},{b:.15g}" for a, b in zip(t, i, strict=True)))
+    waveform = read_waveform(record, "current", period=1 / frequency)
+    assert waveform.periods == 2 and any("no unit" in s for s in waveform.steps)
+    drive = drive_response(model, waveform)
+    spice = period_figures(*transient(netlist, corners, frequency, dc))  # source: ngspice transient
+    assert drive.voltage["peak_to_peak"].value == pytest.approx(spice["peak_to_peak"], rel=2e-3)
+    assert drive.voltage["rms_ac"].value == pytest.approx(spice["rms_ac"], rel=2e-3)
+    assert drive.power.value == pytest.approx(spice["power"], rel=1e-2)

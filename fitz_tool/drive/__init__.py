@@ -9,8 +9,9 @@ from __future__ import annotations
 from .model import DriveModel, dc_resistance, model_from_fit, model_from_json
 from .response import SAFETY_NOTE, DriveResult, Harmonic, Quantity, drive_response
 from .shapes import drive_waveform, parse_drive_spec
-from .waveform import Waveform, read_waveform, waveform_from_samples
+from .waveform import Waveform, band_limited, read_waveform, waveform_from_samples
 
-__all__ = ["DriveModel", "DriveResult", "Harmonic", "Quantity", "Waveform", "SAFETY_NOTE", "dc_resistance",
+__all__ = ["DriveModel", "DriveResult", "Harmonic", "Quantity", "Waveform", "SAFETY_NOTE", "band_limited",
+           "dc_resistance",
            "drive_response", "drive_waveform", "model_from_fit", "model_from_json", "parse_drive_spec",
            "read_waveform", "waveform_from_samples"]

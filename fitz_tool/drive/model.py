@@ -41,6 +41,11 @@ class DriveModel:
         Where the model came from.
     uncertainty_note : str
         What the propagated uncertainty leaves out, or why there is none.
+    budget_covariance : ndarray or None
+        Covariance of ``names`` with the stated bench limits added (uncertainty budget, GUM): the fit's
+        covariance plus ``d_s d_s^T`` for each input s, ``d_s`` its signed contributions ``c_i u_i`` to the
+        parameters (one systematic input moves them all together; inputs uncorrelated). None without
+        stated limits.
     """
 
     circuit: Circuit
@@ -50,21 +55,44 @@ class DriveModel:
     band: tuple[float, float] | None
     source: str
     uncertainty_note: str = ""
+    budget_covariance: np.ndarray | None = None
 
     def impedance(self, frequency: np.ndarray, values: Mapping[str, float] | None = None) -> np.ndarray:
         """Model impedance (ohm) at ``frequency`` (Hz, > 0) for ``values`` (default: the fitted ones)."""
         return self.circuit.impedance(frequency, self.values if values is None else values)
 
 
-def model_from_fit(result) -> DriveModel:
-    """The drive model of a ``FitResult`` (values, covariance of the free parameters, measured band)."""
+def _with_inputs(names: tuple[str, ...], covariance: np.ndarray | None,
+                 signed: Mapping[str, Mapping[str, float]]) -> np.ndarray | None:
+    """``covariance + sum_s d_s d_s^T`` over the inputs s with signed contributions ``signed[s][name]``."""
+    if covariance is None or not signed:
+        return None
+    total = np.array(covariance, dtype=float)
+    for contributions in signed.values():
+        d = np.array([float(contributions.get(n, 0.0)) for n in names])
+        total += np.outer(d, d)
+    return total
+
+
+def model_from_fit(result, budget=None) -> DriveModel:
+    """The drive model of a ``FitResult`` (values, covariance of the free parameters, measured band).
+
+    ``budget`` (a ``fitz_tool.budget.Budget`` with stated limits) adds ``budget_covariance``.
+    """
     from ..derived import parameter_covariance
 
     names, covariance, note = parameter_covariance(result)
+    names = tuple(names) if covariance is not None else ()
+    signed: dict[str, dict[str, float]] = {}
+    if budget is not None and budget.sources:
+        for name, entry in budget.parameters.items():
+            for c in entry.contributions:
+                if c.key != "noise":
+                    signed.setdefault(c.key, {})[name] = c.contribution
     f = result.measurement.frequency
-    return DriveModel(result.circuit, dict(result.values), tuple(names) if covariance is not None else (),
-                      covariance, (float(f[0]), float(f[-1])), result.measurement.provenance.source or "fit",
-                      note)
+    return DriveModel(result.circuit, dict(result.values), names, covariance, (float(f[0]), float(f[-1])),
+                      result.measurement.provenance.source or "fit", note,
+                      _with_inputs(names, covariance, signed))
 
 
 def model_from_json(path: str | Path) -> DriveModel:
@@ -125,7 +153,23 @@ def model_from_json(path: str | Path) -> DriveModel:
             and isinstance(sweep.get("f_max"), (int, float)):
         band = (float(sweep["f_min"]), float(sweep["f_max"]))
     source = (data.get("provenance") or {}).get("source") or where
-    return DriveModel(circuit, values, names, covariance, band, str(source), note)
+    return DriveModel(circuit, values, names, covariance, band, str(source), note,
+                      _with_inputs(names, covariance, _budget_contributions(data.get("budget"))))
+
+
+def _budget_contributions(budget) -> dict[str, dict[str, float]]:
+    """Signed contributions ``c_i u_i`` per input and parameter from a JSON ``budget`` block."""
+    if not isinstance(budget, dict) or budget.get("noise_only") or not budget.get("sources"):
+        return {}
+    u = {s.get("key"): _number(s.get("standard_uncertainty"))
+         for s in budget["sources"] if isinstance(s, dict)}
+    signed: dict[str, dict[str, float]] = {}
+    for name, entry in (budget.get("parameters") or {}).items():
+        for key, c in ((entry or {}).get("sensitivities") or {}).items():
+            value = _number(c) * u.get(key, math.nan)
+            if math.isfinite(value):
+                signed.setdefault(key, {})[name] = value
+    return signed
 
 
 def _number(value) -> float:

@@ -29,6 +29,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..exceptions import InputError
+from ..units import format_quantity
 from .model import DriveModel, dc_resistance
 from .waveform import QUANTITY_UNITS, Waveform
 
@@ -50,12 +51,17 @@ SAFETY_NOTE = ("Loss and ripple figures are for the part alone at the conditions
 
 @dataclass(frozen=True)
 class Quantity:
-    """One result in SI with its propagated standard uncertainty (None: ``note`` says why)."""
+    """One result in SI with its propagated standard uncertainty (None: ``note`` says why).
+
+    ``u_combined`` is the standard uncertainty with the stated bench limits (uncertainty budget) added;
+    None when no limits were stated.
+    """
 
     value: float
     stderr: float | None
     unit: str
     note: str = ""
+    u_combined: float | None = None
 
 
 @dataclass(frozen=True)
@@ -167,8 +173,8 @@ def _response(model: DriveModel, values: dict[str, float], s: _Setup, with_waves
             x_dc = 0.0
         else:
             raise InputError(f"the drive has {x_dc:.4g} A DC but the model {model.circuit.expression!r} has "
-                             "no "
-                             "DC path (it blocks DC); remove the DC part of the current")
+                             "no DC path (it blocks DC); remove the DC part of the current (a record that "
+                             "is not whole periods shows a false DC: give --period)")
     else:
         if r_dc == 0 and abs(x_dc) > DC_ZERO_FRACTION * ac_rms:
             raise InputError(f"the drive has {x_dc:.4g} V DC across a model with 0 ohm at DC "
@@ -224,9 +230,23 @@ def _response(model: DriveModel, values: dict[str, float], s: _Setup, with_waves
 _KEYS = ("peak_to_peak", "peak", "rms", "rms_ac", "dc")
 
 
-def _jacobian_covariance(model: DriveModel, s: _Setup, base: np.ndarray) -> np.ndarray | None:
+def percent(share: float) -> str:
+    """A share as a percentage with two significant digits (``"0.12 %"``, ``"< 0.001 %"``)."""
+    if math.isnan(share):
+        return "undefined"
+    if share < 1e-5:
+        return "< 0.001 %" if share > 0 else "0 %"
+    return f"{share * 100:.2g} %"
+
+
+def _band_text(band: tuple[float, float]) -> str:
+    return f"{format_quantity(band[0], 'Hz')} to {format_quantity(band[1], 'Hz')}"
+
+
+def _variances(model: DriveModel, s: _Setup, base: np.ndarray) -> tuple[np.ndarray | None, np.ndarray | None]:
+    """Variances of every result from the fit's covariance, and with the stated limits (or None)."""
     if model.covariance is None or not model.names:
-        return None
+        return None, None
     sigma = np.sqrt(np.clip(np.diag(model.covariance), 0, None))
     jac = np.zeros((base.size, len(model.names)))
     for k, name in enumerate(model.names):
@@ -235,7 +255,10 @@ def _jacobian_covariance(model: DriveModel, s: _Setup, base: np.ndarray) -> np.n
         up[name] += step
         down[name] -= step
         jac[:, k] = (_response(model, up, s) - _response(model, down, s)) / (2 * step)
-    return np.einsum("ij,jk,ik->i", jac, model.covariance, jac)
+    fit_var = np.einsum("ij,jk,ik->i", jac, model.covariance, jac)
+    if model.budget_covariance is None:
+        return fit_var, None
+    return fit_var, np.einsum("ij,jk,ik->i", jac, model.budget_covariance, jac)
 
 
 def drive_response(model: DriveModel, waveform: Waveform, allow_extrapolation: bool = False) -> DriveResult:
@@ -262,25 +285,28 @@ def drive_response(model: DriveModel, waveform: Waveform, allow_extrapolation: b
         notes.append("the fit record does not give its frequency band: extrapolation not assessed "
                      "(rerun 'fitz-tool fit --json' to record it)")
     elif shares[0] > EXTRAPOLATION_LIMIT and not allow_extrapolation:
-        raise InputError(f"{shares[0]:.0%} of the drive's AC mean square lies outside the fitted band "
-                         f"({model.band[0]:.4g} Hz to {model.band[1]:.4g} Hz): the result would rest mostly "
-                         "on the model extrapolated; measure over a wider band or pass --allow-extrapolation")
+        raise InputError(f"{percent(shares[0])} of the drive's AC mean square lies outside the fitted band "
+                         f"({_band_text(model.band)}): the result would rest mostly on the model "
+                         "extrapolated; measure over a wider band or pass --allow-extrapolation")
     elif shares[0] > 0 or max(shares[1], 0 if math.isnan(shares[2]) else shares[2]) > 0:
-        notes.append(f"outside the fitted band ({model.band[0]:.4g} Hz to {model.band[1]:.4g} Hz) the model "
-                     f"is extrapolated: {shares[0]:.2%} of the drive's AC mean square, {shares[1]:.2%} of "
-                     "the "
-                     f"response's and {shares[2]:.2%} of the power come from there")
-    variance = _jacobian_covariance(model, s, base)
+        notes.append(f"outside the fitted band ({_band_text(model.band)}) the model is extrapolated: "
+                     f"{percent(shares[0])} of the drive's AC mean square, {percent(shares[1])} of the "
+                     f"response's and {percent(shares[2])} of the power come from there")
+    variance, combined = _variances(model, s, base)
+    if combined is not None:
+        notes.append("u_combined adds the stated bench limits (uncertainty budget, GUM) to the fit's "
+                     "covariance: each input a systematic shift of all parameters together")
     unc_note = model.uncertainty_note or ("first-order propagation of the fit's covariance" if variance
                                           is not None else "no uncertainty: the model carries no covariance")
 
     def quantity(index: int, unit: str, exact: bool) -> Quantity:
         value = float(base[index])
         if exact:
-            return Quantity(value, 0.0, unit, "set by the drive")
+            return Quantity(value, 0.0, unit, "set by the drive", None if combined is None else 0.0)
         if variance is None:
             return Quantity(value, None, unit, unc_note)
-        return Quantity(value, float(math.sqrt(max(variance[index], 0.0))), unit)
+        u_c = None if combined is None else float(math.sqrt(max(combined[index], 0.0)))
+        return Quantity(value, float(math.sqrt(max(variance[index], 0.0))), unit, "", u_c)
 
     drive_unit = QUANTITY_UNITS[waveform.quantity]
     other = "voltage" if waveform.quantity == "current" else "current"
@@ -291,16 +317,17 @@ def drive_response(model: DriveModel, waveform: Waveform, allow_extrapolation: b
     n_h = s.harmonic_bins.size
     for j, k in enumerate(s.harmonic_bins):
         i_c, v_c = (s.c[k], d[k]) if waveform.quantity == "current" else (d[k], s.c[k])
-        drive_amp = Quantity(float(2 * abs(s.c[k])), 0.0, drive_unit, "set by the drive")
+        drive_amp = Quantity(float(2 * abs(s.c[k])), 0.0, drive_unit, "set by the drive",
+                             None if combined is None else 0.0)
         resp_amp = quantity(11 + j, QUANTITY_UNITS[other], False)
         amps = (drive_amp, resp_amp) if waveform.quantity == "current" else (resp_amp, drive_amp)
         harmonics.append(Harmonic(int(k // s.periods), float(s.f[k]), complex(2 * i_c), complex(2 * v_c),
                                   amps[0], amps[1], quantity(11 + n_h + j, "W", False),
                                   not bool(s.out_of_band[k])))
     if r_dc > 0 and math.isfinite(r_dc) and abs(s.c[0].real) > 0 and model.band is not None:
-        notes.append(f"the DC term uses the model's DC resistance {r_dc:.4g} ohm, extrapolated to 0 Hz "
-                     "from the "
-                     f"fitted band (lowest {model.band[0]:.4g} Hz)")
+        notes.append(f"the DC term uses the model's DC resistance {format_quantity(r_dc, 'ohm')}, "
+                     "extrapolated to 0 Hz from the fitted band (lowest "
+                     f"{format_quantity(model.band[0], 'Hz')})")
     last = slice(s.x.size - s.x.size // s.periods, s.x.size)
     time = np.arange(s.x.size // s.periods) * s.dt
     current_wave, voltage_wave = (s.x[last], wave[last]) if waveform.quantity == "current" \

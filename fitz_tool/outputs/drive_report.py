@@ -3,7 +3,7 @@
 The JSON keeps SI units: ``{"voltage": {"peak_to_peak", "peak", "rms", "rms_ac", "dc"}, "current": {...},
 "power": {"average_w", "stderr_w"}, "harmonics": [...], "extrapolated_share": float, ...}``, where each
 voltage and current entry is ``{"value", "stderr"}`` (stderr null when it could not be propagated, 0 for the
-quantity the drive sets).
+quantity the drive sets) and ``u_combined`` with the stated bench limits added (null without them).
 """
 
 from __future__ import annotations
@@ -16,8 +16,8 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.ticker import EngFormatter
 
-from ..drive.response import SAFETY_NOTE, DriveResult, Quantity
-from ..units import format_quantity
+from ..drive.response import SAFETY_NOTE, DriveResult, Quantity, percent
+from ..units import format_quantity, format_relative
 from .plots import PALETTE
 
 __all__ = ["format_drive_report", "drive_to_json", "drive_figures", "drive_html_section",
@@ -34,12 +34,15 @@ DRIVE_FIGURE_CAPTIONS: dict[str, str] = {
 }
 
 
-def _q(q: Quantity) -> str:
+def _q(q: Quantity, combined: bool = True) -> str:
     if q.stderr == 0.0 and q.note:
         return f"{format_quantity(q.value, q.unit)}  ({q.note})"
     if q.value == 0 or not math.isfinite(q.value):
         return format_quantity(q.value, q.unit)
-    return format_quantity(q.value, q.unit, q.stderr)
+    text = format_quantity(q.value, q.unit, q.stderr)
+    if combined and q.u_combined is not None and q.stderr is not None:
+        text += f"  (with stated limits +/- {format_relative(q.u_combined, q.value)})"
+    return text
 
 
 def _rows(result: DriveResult) -> list[str]:
@@ -67,10 +70,11 @@ def format_drive_report(result: DriveResult) -> str:
                                     else format_quantity(result.dc_resistance, "ohm")),
              "", "Response:", *_rows(result),
              "", f"Average loss in the part: {_q(result.power)}",
-             f"Share from outside the fitted band (model extrapolated): {result.extrapolated_share:.2%}",
+             f"Share from outside the fitted band (model extrapolated): {percent(result.extrapolated_share)}",
              "", "Harmonics (peak amplitudes):"]
-    rows = [(str(h.order), format_quantity(h.frequency, "Hz"), _q(h.current_amplitude).split("  (")[0],
-             _q(h.voltage_amplitude).split("  (")[0], _q(h.loss), "" if h.in_band else "extrapolated")
+    rows = [(str(h.order), format_quantity(h.frequency, "Hz"), _q(h.current_amplitude, False).split("  (")[0],
+             _q(h.voltage_amplitude, False).split("  (")[0], _q(h.loss, False),
+             "" if h.in_band else "extrapolated")
             for h in result.harmonics[:TERMINAL_HARMONICS]]
     header = ("n", "frequency", "current", "voltage", "loss", "")
     widths = [max(len(r[i]) for r in [header, *rows]) for i in range(len(header))]
@@ -92,7 +96,7 @@ def _num(value) -> float | None:
 
 
 def _entry(q: Quantity) -> dict:
-    return {"value": _num(q.value), "stderr": _num(q.stderr)}
+    return {"value": _num(q.value), "stderr": _num(q.stderr), "u_combined": _num(q.u_combined)}
 
 
 def drive_to_json(result: DriveResult) -> dict:
@@ -106,7 +110,8 @@ def drive_to_json(result: DriveResult) -> dict:
                   "dc_resistance_ohm": _num(result.dc_resistance)},
         "voltage": {k: _entry(v) for k, v in result.voltage.items()},
         "current": {k: _entry(v) for k, v in result.current.items()},
-        "power": {"average_w": _num(result.power.value), "stderr_w": _num(result.power.stderr)},
+        "power": {"average_w": _num(result.power.value), "stderr_w": _num(result.power.stderr),
+                  "u_combined_w": _num(result.power.u_combined)},
         "harmonics": [{"order": h.order, "frequency_hz": _num(h.frequency),
                        "current_a": _entry(h.current_amplitude), "voltage_v": _entry(h.voltage_amplitude),
                        "current_phase_deg": _num(np.degrees(np.angle(h.current))),
@@ -145,7 +150,7 @@ def drive_figures(result: DriveResult) -> dict[str, Figure]:
     ax = loss.subplots()
     f = np.array([h.frequency for h in result.harmonics])
     p = np.array([h.loss.value for h in result.harmonics])
-    positive = p > 0
+    positive = p > 1e-9 * max(p.max(initial=0.0), 0.0)  # below that, numerical images only
     if positive.any():
         ax.vlines(f[positive], p[positive].min() * 0.3, p[positive], color=PALETTE["model"], linewidth=2.0)
         ax.set_yscale("log")
