@@ -15,8 +15,10 @@ from .exceptions import InputError, ModelSyntaxError
 
 __all__ = [
     "MIN_FREQUENCY", "MAX_FREQUENCY", "MIN_IMPEDANCE", "MAX_IMPEDANCE", "MIN_RESISTANCE", "MAX_RESISTANCE",
-    "MAX_SKEW", "OVERFLOW_MARKER", "MAX_LINE_LENGTH", "MAX_EXPRESSION_LENGTH", "MAX_EXPRESSION_DEPTH",
-    "MAX_ELEMENTS", "is_no_reading", "check_frequency", "check_resistance", "check_skew", "check_expression",
+    "MAX_SKEW", "OVERFLOW_MARKER", "MAX_LINE_LENGTH", "MAX_EXPRESSION_LENGTH", "MAX_DEPTH",
+    "MAX_EXPRESSION_DEPTH", "MAX_ELEMENTS", "is_no_reading",
+    "no_reading_as_nan", "check_line_lengths", "check_frequency", "check_resistance", "check_skew",
+    "check_expression",
 ]
 
 #: Frequencies in Hz: 1 uHz (below the slowest impedance spectroscopy) to 10 THz (beyond any VNA).
@@ -52,6 +54,22 @@ _NAME = re.compile(r"[A-Za-z][A-Za-z0-9_]*")
 def is_no_reading(value: float) -> bool:
     """True for an instrument's no-reading value: NaN, +/-inf, or a magnitude at or above 9.9E37."""
     return not math.isfinite(value) or abs(value) >= OVERFLOW_MARKER
+
+
+def no_reading_as_nan(value: float) -> float:
+    """A cell's value, or NaN (counted as a missing reading by the readers) for an instrument's no-reading."""
+    return math.nan if is_no_reading(value) else value
+
+
+def check_line_lengths(text: str, where: str) -> None:
+    """Refuse a file with a line longer than MAX_LINE_LENGTH characters (naming the line)."""
+    if len(text) <= MAX_LINE_LENGTH:
+        return
+
+    for number, line in enumerate(text.splitlines(), 1):
+        if len(line) > MAX_LINE_LENGTH:
+            raise InputError(f"{where}: line {number} is {len(line)} characters long; the limit is "
+                             f"{MAX_LINE_LENGTH:,} (a bench export has short rows): is this the right file?")
 
 
 def _check_range(value: float, low: float, high: float, unit: str, what: str, hint: str) -> float:
@@ -95,9 +113,9 @@ def check_expression(expression: str) -> None:
             deepest = max(deepest, depth)
         elif char == ")":
             depth -= 1
-    if deepest > MAX_EXPRESSION_DEPTH:
+    if deepest > MAX_DEPTH:
         raise ModelSyntaxError(f"circuit expression nests parentheses {deepest} deep; the limit is "
-                               f"{MAX_EXPRESSION_DEPTH}: remove redundant parentheses")
+                               f"{MAX_DEPTH}: remove redundant parentheses")
     elements = len(_NAME.findall(expression))
     if elements > MAX_ELEMENTS:
         raise ModelSyntaxError(f"circuit expression has {elements} elements; the limit is {MAX_ELEMENTS} "

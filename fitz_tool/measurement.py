@@ -62,6 +62,24 @@ class Provenance:
         return dataclasses.replace(self, steps=self.steps + (step,), warnings=warnings)
 
 
+def _check_physical(f: np.ndarray, z: np.ndarray, where: str) -> None:
+    """Frequencies and |Z| inside the ranges of ``limits`` (far beyond any bench), else InputError."""
+    from .limits import MAX_FREQUENCY, MAX_IMPEDANCE, MIN_FREQUENCY, MIN_IMPEDANCE
+
+    outside = (f < MIN_FREQUENCY) | (f > MAX_FREQUENCY)
+    if np.any(outside):
+        k = int(np.argmax(outside))
+        raise InputError(f"{where}: frequency {f[k]:g} Hz is outside {MIN_FREQUENCY:g} .. "
+                         f"{MAX_FREQUENCY:g} Hz; check the frequency column and its unit")
+    magnitude = np.abs(z)
+    outside = (magnitude < MIN_IMPEDANCE) | (magnitude > MAX_IMPEDANCE)
+    if np.any(outside):
+        k = int(np.argmax(outside))
+        raise InputError(f"{where}: |Z| = {magnitude[k]:g} ohm at {f[k]:g} Hz is outside "
+                         f"{MIN_IMPEDANCE:g} .. {MAX_IMPEDANCE:g} ohm; check the columns, their units and "
+                         f"--shunt/--reference")
+
+
 @dataclass(frozen=True)
 class Measurement:
     """Impedance of one part over frequency.
@@ -104,6 +122,7 @@ class Measurement:
             raise InputError(f"{where}: frequencies must be strictly ascending and unique")
         if not np.all(np.isfinite(z)):
             raise InputError(f"{where}: impedance has non-finite values")
+        _check_physical(f, z, where)
         object.__setattr__(self, "frequency", f)
         object.__setattr__(self, "impedance", z)
         for name in ("sigma_lnmag", "sigma_phase"):

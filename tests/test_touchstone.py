@@ -201,7 +201,8 @@ BAD_FILES = {
     "two_port_data.s1p": ("# MHz S RI R 50\n1 0 0 1 0 1 0 0 0\n", "9 values.*2-port file: check the ext"),
     "one_port_data.s2p": ("# MHz S RI R 50\n1 0 0\n2 0 0\n3 0 0\n", "3 values.*1-port file: check the ext"),
     "empty.s1p": ("", "no option line"),
-    "descending.s1p": ("# MHz S RI R 50\n2 0.1 0\n1 0.1 0\n", "ascending"),
+    "repeated.s1p": ("# MHz S RI R 50\n1 0.1 0\n1 0.1 0\n", "already given in row 2"),
+    "descending.s2p": ("# MHz S RI R 50\n2" + " 0.1 0" * 4 + "\n1" + " 0.1 0" * 4 + "\n", "must rise"),
 }
 
 

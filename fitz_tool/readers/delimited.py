@@ -31,6 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..exceptions import InputError
+from ..limits import no_reading_as_nan
 from .headers import parse_unit
 
 __all__ = ["TextTable", "decode_bytes", "split_table", "parse_number", "numeric_column"]
@@ -39,7 +40,7 @@ _NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
 _NUMBER_COMMA = re.compile(r"[+-]?(?:\d+(?:,\d*)?|,\d+)(?:[eE][+-]?\d+)?")
 _THOUSANDS_DOT = re.compile(r"[+-]?\d{1,3}(?:\.\d{3})+(?:,\d*)?(?:[eE][+-]?\d+)?")
 _THOUSANDS_COMMA = re.compile(r"[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?(?:[eE][+-]?\d+)?")
-_MISSING = re.compile(r"(?i:nan|-nan|na|n/a|#n/a|none|null|-+|\*+)?")
+_MISSING = re.compile(r"(?i:nan|-nan|na|n/a|#n/a|none|null|-+|\*+|[+-]?inf(?:inity)?)?")  # inf: no reading
 _DELIMITERS = {"\t": "tab", ";": "semicolon", ",": "comma", " ": "spaces"}
 _COMMENT = ("#", "!", "//")
 
@@ -259,12 +260,12 @@ def parse_number(cell: str, decimal: str = ".") -> float:
         if _THOUSANDS_DOT.fullmatch(cell):
             cell = cell.replace(".", "")
         if _NUMBER_COMMA.fullmatch(cell):
-            return float(cell.replace(",", "."))
+            return no_reading_as_nan(float(cell.replace(",", ".")))
     else:
         if _THOUSANDS_COMMA.fullmatch(cell):
             cell = cell.replace(",", "")
         if _NUMBER.fullmatch(cell):
-            return float(cell)
+            return no_reading_as_nan(float(cell))
     raise ValueError(f"not a number: {cell!r}")
 
 

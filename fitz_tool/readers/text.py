@@ -25,6 +25,7 @@ from pathlib import Path
 import numpy as np
 
 from ..exceptions import InputError
+from ..limits import check_line_lengths
 from ..measurement import Measurement, Provenance
 from ..units import prefix_factor
 from .columns import plan_columns
@@ -156,6 +157,7 @@ def read_delimited(path: str | Path, options: ReadOptions | None = None) -> Meas
     except OSError as exc:
         raise InputError(f"{where}: cannot read the file ({exc.strerror or exc})") from None
     text, encoding = decode_bytes(raw, where)
+    check_line_lengths(text, where)
     simulator = find_simulator_table(text, where)
     if simulator is not None:
         return _simulator_measurement(simulator, raw, path, column_map or {}, shunt, reference)

@@ -46,6 +46,7 @@ from skrf.io.touchstone import Touchstone
 
 from ..exceptions import InputError
 from ..measurement import Measurement, Provenance
+from .touchstone_checks import checked_touchstone_text, named_text
 
 __all__ = [
     "MAX_SENSITIVITY",
@@ -224,11 +225,12 @@ def _load(path: Path) -> tuple[skrf.Network, Touchstone, list[str], str]:
         raise InputError(f"{path}: expected a .s1p or .s2p Touchstone file")
     nports = int(match.group(1))
     _check_layout(path, data.decode("latin-1"), nports)
+    text, checked = checked_touchstone_text(path, data.decode("latin-1"), nports)  # comments stripped
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            touchstone = Touchstone(str(path))
-            network = skrf.Network(str(path))
+            touchstone = Touchstone(named_text(text, path))
+            network = skrf.Network(named_text(text, path))
         except (ValueError, TypeError, IndexError, KeyError, EOFError, UnicodeError, AttributeError) as exc:
             detail = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
             raise InputError(f"{path}: scikit-rf cannot read it as Touchstone: {detail}") from None
@@ -237,7 +239,8 @@ def _load(path: Path) -> tuple[skrf.Network, Touchstone, list[str], str]:
         raise InputError(f"{path}: holds {network.nports}-port data but the extension says {nports}-port")
     if network.frequency.npoints == 0:
         raise InputError(f"{path}: no data rows after the option line")
-    return network, touchstone, [f"scikit-rf: {n}" for n in notes], hashlib.sha256(data).hexdigest()
+    notes = checked + [f"scikit-rf: {n}" for n in notes]
+    return network, touchstone, notes, hashlib.sha256(data).hexdigest()
 
 
 def _reference(path: Path, network: skrf.Network) -> np.ndarray:
