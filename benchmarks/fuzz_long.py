@@ -24,9 +24,8 @@ os.environ.setdefault("MPLBACKEND", "Agg")
 ROOT = Path(__file__).resolve().parents[1]
 sys.path[:0] = [str(ROOT), str(ROOT / "tests")]
 
-from hypothesis import HealthCheck, Phase, given, settings  # noqa: E402
-
 from fuzz_cases import FAMILIES, OUTCOMES, run_case  # noqa: E402
+from hypothesis import HealthCheck, Phase, given, settings  # noqa: E402
 
 #: cases per family at --scale 1 (5,200 in all)
 CASES = {"delimited": 1500, "garbage": 1000, "touchstone": 1500, "expression": 600, "options": 600}

@@ -302,7 +302,7 @@ def touchstone_cases(draw) -> Case:
     order = list(range(len(rows)))
     if "descending" in hostile:
         order = order[::-1]
-    for j, (f, zz) in enumerate(zip(frequency, z, strict=True)):
+    for j in range(n):
         if j not in corrupt:
             cells = rows[j]
             s_read = _read_pair(cells[1:3] if nports == 1 else cells[3:5], fmt)
@@ -323,7 +323,8 @@ def touchstone_cases(draw) -> Case:
         lines.append("[End]")
     name = f"part.s{nports}p"
     argv = ["inspect", name] + (["--through", "shunt"] if nports == 2 else [])
-    return Case("touchstone", {name: ("\n".join(lines) + "\n").encode()}, argv, truth, note=f"{fmt} {hostile}")
+    data = ("\n".join(lines) + "\n").encode()
+    return Case("touchstone", {name: data}, argv, truth, note=f"{fmt} {hostile}")
 
 
 def _read_pair(cells: list[str], fmt: str) -> complex:

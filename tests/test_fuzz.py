@@ -8,9 +8,8 @@ import tempfile
 from pathlib import Path
 
 import pytest
-from hypothesis import given
-
 from fuzz_cases import FAMILIES, run_case
+from hypothesis import given
 
 
 @pytest.mark.parametrize("family", list(FAMILIES))
