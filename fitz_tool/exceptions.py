@@ -30,8 +30,17 @@ class ModelSyntaxError(FitzError):
         self.expression = expression
         self.column = column
         if column is not None and expression:
-            message = f"{message} at column {column}: {expression!r}"
+            message = f"{message} at column {column}: {_excerpt(expression, column)}"
         super().__init__(message)
+
+
+def _excerpt(expression: str, column: int, width: int = 60) -> str:
+    """The expression, or for a long one the ``width`` characters around ``column`` with ``...`` marks."""
+    if len(expression) <= width:
+        return repr(expression)
+    start = max(0, min(column - 1 - width // 2, len(expression) - width))
+    piece = expression[start:start + width]
+    return f"{'...' if start > 0 else ''}{piece!r}{'...' if start + width < len(expression) else ''}"
 
 
 class FitError(FitzError):
