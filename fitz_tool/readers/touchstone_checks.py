@@ -138,19 +138,17 @@ def checked_touchstone_text(path: Path, text: str, nports: int) -> tuple[str, li
             (tail if rows else head).append(line)
             continue
         tokens = line.split()
-        if not version2 and nports == 2 and len(tokens) == 5 and rows:
-            tail.append(line)  # Touchstone 1.x noise parameters
-            continue
         if tail and not version2:
             tail.append(line)
             continue
-        if version2:
-            pending.extend((number, c, _number(path, number, c, t)) for c, t in enumerate(tokens, 1))
-            while len(pending) >= per_row:
-                chunk, pending = pending[:per_row], pending[per_row:]
-                rows.append((chunk[0][0], [(c, v) for _, c, v in chunk]))
+        if not version2 and not pending and nports == 2 and len(tokens) == 5 and rows and (
+                _number(path, number, 1, tokens[0]) <= rows[-1][1][0][1]):
+            tail.append(line)  # Touchstone 1.x noise parameters (a 5-value row at a frequency not above)
             continue
-        rows.append((number, [(c, _number(path, number, c, t)) for c, t in enumerate(tokens, 1)]))
+        pending.extend((number, c, _number(path, number, c, t)) for c, t in enumerate(tokens, 1))
+        while len(pending) >= per_row:  # a row may be wrapped over several lines
+            chunk, pending = pending[:per_row], pending[per_row:]
+            rows.append((chunk[0][0], [(c, v) for _, c, v in chunk]))
 
     warnings: list[str] = []
     for number, values in rows:
