@@ -791,6 +791,29 @@ def join_negative_values(argv: Sequence[str], parser: argparse.ArgumentParser) -
     return joined
 
 
+def refuse_repeated_options(argv: Sequence[str], parser: argparse.ArgumentParser) -> None:
+    """A single-value option given twice (``--shunt 1 --shunt 2``) is an error, not "the last one wins"."""
+    commands = next((a for a in parser._actions if isinstance(a, argparse._SubParsersAction)), None)
+    command = next((t for t in argv if commands is not None and t in commands.choices), None)
+    if command is None:
+        return
+    actions = commands.choices[command]._option_string_actions
+    seen: dict[str, str] = {}
+    for token in argv:
+        if token == "--":
+            break
+        if not token.startswith("--"):
+            continue
+        name = token.split("=", 1)[0]
+        matches = [name] if name in actions else [o for o in actions if o.startswith(name)]
+        action = actions[matches[0]] if len({id(actions[m]) for m in matches}) == 1 else None
+        if action is None or type(action) is not argparse._StoreAction:
+            continue
+        if action.dest in seen:
+            parser.error(f"{matches[0]} given twice ({seen[action.dest]} and {token}); give it once")
+        seen[action.dest] = token
+
+
 def _run(args) -> int:
     try:
         return args.handler(args)
@@ -806,7 +829,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     """
     parser = build_parser()
     argv = list(sys.argv[1:] if argv is None else argv)
-    args = parser.parse_args(join_negative_values(argv, parser))
+    argv = join_negative_values(argv, parser)
+    refuse_repeated_options(argv, parser)
+    args = parser.parse_args(argv)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")

@@ -8,7 +8,8 @@ outcome:
 ``ok``          exit 0, and every point read equals the truth of a clean row (an oracle the case carries)
 ``refused``     non-zero exit with exactly one line "fitz-tool: error: ..." on stderr
 ``traceback``   an exception escaped, or stderr held more than that one line (warnings included)
-``hang``        the case ran longer than ``HANG_SECONDS``
+``hang``        the case used more than ``HANG_SECONDS`` of CPU time (or ``WALL_SECONDS`` of wall time: the
+                machine is shared, so wall time alone says little)
 ``wrong``       exit 0 but a point differs from the truth or comes from a corrupted row (silently wrong)
 ``damaged``     an input changed, or a refused run left an output file behind
 """
@@ -30,6 +31,7 @@ import numpy as np
 from hypothesis import strategies as st
 
 HANG_SECONDS = 30
+WALL_SECONDS = 300
 OUTCOMES = ("ok", "refused", "traceback", "hang", "wrong", "damaged")
 
 
@@ -51,6 +53,7 @@ class Outcome:
     label: str
     seconds: float
     detail: str = ""
+    cpu_seconds: float = 0.0
 
 
 class _Hang(BaseException):
@@ -89,9 +92,10 @@ def run_case(case: Case, folder: Path) -> Outcome:
         (folder / name).write_bytes(data)
     before = _digest(folder, case.files)
     err, out = io.StringIO(), io.StringIO()
-    previous = signal.signal(signal.SIGALRM, _on_alarm)
-    signal.alarm(HANG_SECONDS)
-    start = time.perf_counter()
+    previous = signal.signal(signal.SIGALRM, _on_alarm), signal.signal(signal.SIGPROF, _on_alarm)
+    signal.alarm(WALL_SECONDS)
+    signal.setitimer(signal.ITIMER_PROF, HANG_SECONDS)  # CPU time of this process (user + system)
+    start, cpu_start = time.perf_counter(), time.process_time()
     label, detail = "", ""
     cwd = os.getcwd()
     os.environ["FITZ_TOOL_DEBUG"] = "1"
@@ -112,10 +116,12 @@ def run_case(case: Case, folder: Path) -> Outcome:
         label, code, detail = "traceback", None, f"{type(exc).__name__}: {str(exc)[:300]}"
     finally:
         signal.alarm(0)
-        signal.signal(signal.SIGALRM, previous)
+        signal.setitimer(signal.ITIMER_PROF, 0)
+        signal.signal(signal.SIGALRM, previous[0])
+        signal.signal(signal.SIGPROF, previous[1])
         os.chdir(cwd)
         os.environ.pop("FITZ_TOOL_DEBUG", None)
-    seconds = time.perf_counter() - start
+    seconds, cpu = time.perf_counter() - start, time.process_time() - cpu_start
     if not label:
         lines = err.getvalue().splitlines()
         if code == 0:
@@ -127,14 +133,14 @@ def run_case(case: Case, folder: Path) -> Outcome:
         else:
             label, detail = "traceback", f"exit {code}: {err.getvalue()[-300:]}"
     if _digest(folder, case.files) != before:
-        return Outcome("damaged", seconds, "an input file changed")
-    if label in ("refused", "traceback") and any((folder / o).exists() for o in case.outputs):
-        return Outcome("damaged", seconds, f"output left behind after exit {code}")
+        return Outcome("damaged", seconds, "an input file changed", cpu)
+    if label in ("refused", "traceback") and code != 0 and any((folder / o).exists() for o in case.outputs):
+        return Outcome("damaged", seconds, f"output left behind after exit {code}; {detail}", cpu)
     if label == "ok" and case.truth is not None:
         problem = _check_oracle(case, folder)
         if problem:
-            return Outcome("wrong", seconds, problem)
-    return Outcome(label, seconds, detail)
+            return Outcome("wrong", seconds, problem, cpu)
+    return Outcome(label, seconds, detail, cpu)
 
 
 # ----------------------------------------------------------------------------------------------- data

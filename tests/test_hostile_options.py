@@ -122,3 +122,15 @@ def test_no_python_warning_reaches_the_user(choke, capsys, monkeypatch):
         warnings.simplefilter("error")  # a warning that escaped would fail the command
         assert main(["inspect", str(choke), "--shunt", "0.1"]) == 0
     assert "Warning" not in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("argv, message", [
+    (["--shunt", "0.1", "--shunt", "0.2"], "--shunt given twice"),
+    (["--shunt=0.1", "--json", "a.json", "--json=b.json"], "--json given twice"),
+    (["--shunt", "0.1", "--plot", "a", "--plot-dir", "b"], "--plot-dir given twice"),  # an abbreviation
+])
+def test_a_single_value_option_given_twice_is_an_error(choke, capsys, argv, message):
+    with pytest.raises(SystemExit) as info:
+        main(["fit", str(choke), "--model", "Rs + L1", *argv])
+    assert info.value.code == 2
+    assert message in capsys.readouterr().err
