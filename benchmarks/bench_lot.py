@@ -10,7 +10,9 @@ a lot of generated chokes (``(Rs + L1) || Cp``, values spread over +/- 10 %, 201
    (``read_measurement`` + ``fit`` + ``design_values``, median per part); target <= 1.3. The lot's part
    also computes the uncertainty budget, the JSON record and writes the store.
 
-The machine running it may be shared: the figures are wall-clock times and say so.
+The machine running it may be shared: the figures are wall-clock times and say so; the CPU time inside each
+part's job shows whether a worker waited for a core (a speed-up needs free cores: on Linux with
+``sched_autogroup_enabled`` all processes of one terminal session share one session's slice of the CPU).
 """
 
 from __future__ import annotations
@@ -60,12 +62,15 @@ def api_cost(files: list[str], at: float) -> float:
     return statistics.median(times)
 
 
-def lot_rate(folder: Path, workers: int, store: Path) -> tuple[float, int]:
+def lot_rate(folder: Path, workers: int, store: Path) -> tuple[float, int, float, float]:
+    """Parts per second (wall clock), errors, and the median wall and CPU seconds inside one part's job."""
     items = collect_files([str(folder)])
     start = time.perf_counter()
     result = run_lot(items, LotSettings(model=MODEL, at={"100k": 100e3}), store=store, workers=workers)
     elapsed = time.perf_counter() - start
-    return len(items) / elapsed, result.n_errors
+    payloads = list(result.payloads.values())
+    return (len(items) / elapsed, result.n_errors, statistics.median(p["elapsed_s"] for p in payloads),
+            statistics.median(p["cpu_s"] for p in payloads))
 
 
 def main() -> None:
@@ -80,13 +85,18 @@ def main() -> None:
         files = sorted(str(p) for p in folder.iterdir())
         api_cost(files[:3], 100e3)  # warm-up: imports and caches
         per_api = api_cost(files[: min(40, len(files))], 100e3)
-        rate1, errors1 = lot_rate(folder, 1, Path(tmp) / "one.sqlite")
-        rate2, errors2 = lot_rate(folder, 2, Path(tmp) / "two.sqlite")
+        rate1, errors1, wall1, cpu1 = lot_rate(folder, 1, Path(tmp) / "one.sqlite")
+        rate2, errors2, wall2, cpu2 = lot_rate(folder, 2, Path(tmp) / "two.sqlite")
     load = os.getloadavg()[0]
     print(f"lot of {args.parts} parts x {args.points} points, model {MODEL!r}, {os.cpu_count()} cores, "
           f"load average {load:.1f} at the end (a shared machine; wall-clock figures)")
     print(f"(1) 1 worker: {rate1:.2f} parts/s; 2 workers: {rate2:.2f} parts/s; speed-up {rate2 / rate1:.2f} "
           f"(target >= 1.7); errors {errors1}, {errors2}")
+    print(f"    inside a part's job (median): 1 worker {1e3 * wall1:.1f} ms wall / {1e3 * cpu1:.1f} ms CPU; "
+          f"2 workers {1e3 * wall2:.1f} ms wall / {1e3 * cpu2:.1f} ms CPU each")
+    print(f"    CPU-bound ceiling of the speed-up with 2 free cores: 2 x {cpu1 * 1e3:.1f} / "
+          f"{cpu2 * 1e3:.1f} = {2 * cpu1 / cpu2:.2f}; a job slower in wall time than in CPU time waited "
+          "for a core")
     print(f"(2) per part: lot {1e3 / rate1:.1f} ms, API fit {1e3 * per_api:.1f} ms, ratio "
           f"{1 / rate1 / per_api:.2f} (target <= 1.3)")
 

@@ -119,3 +119,23 @@ def test_verdicts_use_the_budget_expanded_uncertainty(lot):
         assert noise_only.loc[item.file, "L1_U"] < 0.01 * L
         # 22 uH +/- 4 % cannot be confirmed with U of about 5.8 %: marginal, never pass
         assert stated.loc[item.file, "spec_L1"] == "marginal"
+
+
+def test_a_failing_worker_gives_error_rows_and_is_not_stored(lot, tmp_path):
+    from concurrent.futures import Future
+
+    class BrokenExecutor:
+        """An executor whose every job fails, as a crashed worker process would (no real pool needed)."""
+
+        def submit(self, fn, *args):
+            future = Future()
+            future.set_exception(RuntimeError("worker process died"))
+            return future
+
+    _, _, items, settings, _ = lot
+    store = tmp_path / "s.sqlite"
+    result = run_lot(items[:2], settings, store=store, executor=BrokenExecutor())
+    assert list(result.table["status"]) == ["error", "error"]
+    assert all("worker process died" in e and "run the lot again" in e for e in result.table["error"])
+    with ResultStore(store) as db:
+        assert db.fit_counts() == {}

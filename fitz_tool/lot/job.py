@@ -105,10 +105,10 @@ def run_part(job: PartJob) -> dict:
     dict
         ``status`` (``"ok"`` or ``"error"``), ``error`` (one line), ``retry`` (True for an unexpected error
         that should not be stored), ``candidates`` (expression -> fit record as ``fit_to_json``),
-        ``chosen`` (this file's own choice), ``curve`` (``frequency_Hz``, ``abs_ohm``, ``phase_deg``) and
-        ``elapsed_s``.
+        ``chosen`` (this file's own choice), ``curve`` (``frequency_Hz``, ``abs_ohm``, ``phase_deg``),
+        ``elapsed_s`` (wall clock) and ``cpu_s`` (CPU time of the worker process), in s.
     """
-    start = time.perf_counter()
+    start, cpu = time.perf_counter(), time.process_time()
     try:
         payload = _fit_part(job)
     except FitzError as exc:
@@ -119,6 +119,7 @@ def run_part(job: PartJob) -> dict:
                    "error": f"{job.file}: internal error {type(exc).__name__}: {exc} "
                             f"({where.filename.rsplit('/', 1)[-1]}:{where.lineno}); please report it"}
     payload["elapsed_s"] = time.perf_counter() - start
+    payload["cpu_s"] = time.process_time() - cpu
     return payload
 
 

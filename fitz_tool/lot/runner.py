@@ -194,7 +194,13 @@ def _execute(jobs: Mapping[str, PartJob], on_result: Callable[[str, dict], None]
                       else executor.submit(run_part, job))
             futures[future] = key
         for future in _as_completed(executor, list(futures)):
-            on_result(futures[future], future.result())
+            try:
+                payload = future.result()
+            except Exception as exc:  # a worker died or the cluster failed: an error row, retried next run
+                payload = {"status": "error", "retry": True, "elapsed_s": 0.0,
+                           "error": f"{jobs[futures[future]].file}: the worker fitting it failed "
+                                    f"({type(exc).__name__}: {exc}); run the lot again to retry"}
+            on_result(futures[future], payload)
     finally:
         if own:
             if _is_dask(executor):
