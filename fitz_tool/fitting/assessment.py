@@ -8,7 +8,9 @@ bound, a parameter the data do not determine, correlations near 1, and residuals
 Honest uncertainties: the first-order standard error (from the Jacobian at the optimum) is trusted only
 where the linear approximation holds. A parameter at a bound, without a first-order error, with a relative
 error above ``APPROXIMATE_LIMIT``, an exponent within ``NEAR_BOUND_ERRORS`` errors of its bound, or a
-correlation above ``CORRELATION_LIMIT`` gets a 68 % profile-likelihood interval instead (see
+correlation above ``CORRELATION_LIMIT`` with a relative error above ``LINEAR_LIMIT`` (below it the model is
+linear to a part in 10^4 over +/- one error, however correlated, so first order holds; common practice, no
+source) gets a 68 % profile-likelihood interval instead (see
 :mod:`fitz_tool.profile`). Its ``stderr`` is then half the interval's width when the interval is symmetric
 within ``SYMMETRY_LIMIT``, and None otherwise, with the interval in ``ParameterEstimate.interval`` and the
 reason in ``stderr_note``; such a parameter leaves the covariance (and ``uvars``), so that propagation to
@@ -42,11 +44,14 @@ if TYPE_CHECKING:
     from .local import LocalFit
     from .problem import FitProblem
 
-__all__ = ["assess", "residual_structure", "weighting_description", "CORRELATION_LIMIT", "UNDETERMINED_LIMIT",
-           "APPROXIMATE_LIMIT", "AT_BOUND_TOLERANCE", "SYMMETRY_LIMIT", "NEAR_BOUND_ERRORS", "INTERVAL_MODES"]
+__all__ = ["assess", "residual_structure", "weighting_description", "CORRELATION_LIMIT", "LINEAR_LIMIT",
+           "UNDETERMINED_LIMIT", "APPROXIMATE_LIMIT", "AT_BOUND_TOLERANCE", "SYMMETRY_LIMIT",
+           "NEAR_BOUND_ERRORS", "INTERVAL_MODES"]
 
-#: |correlation| above which a pair is flagged (and both get a profile interval).
+#: |correlation| above which a pair is flagged (and both get a profile interval unless well determined).
 CORRELATION_LIMIT = 0.99
+#: Relative standard error below which a correlated parameter keeps its first-order error.
+LINEAR_LIMIT = 1e-3
 #: Distance (internal units: decades, or n) from a bound that counts as sitting on it.
 #: An exponent within this many first-order errors of its bound gets a profile interval.
 NEAR_BOUND_ERRORS = 3.0
@@ -107,9 +112,11 @@ def _first_order(out: LocalFit, circuit: Circuit, free: tuple[str, ...],
 def _needs_profile(name: str, i: int, x: np.ndarray, bounds: tuple[np.ndarray, np.ndarray], exponent: bool,
                    se_internal: dict[str, float], uvars: dict, at_bound: dict, correlated: set[str]) -> bool:
     """Whether the first-order error of ``name`` is not trustworthy (module docstring)."""
-    if name in at_bound or name not in uvars or name in correlated:
+    if name in at_bound or name not in uvars:
         return True
     value, stderr = uvars[name].nominal_value, uvars[name].std_dev
+    if name in correlated and stderr > LINEAR_LIMIT * abs(value):
+        return True
     if stderr > APPROXIMATE_LIMIT * abs(value):
         return True
     distance = min(x[i] - bounds[0][i], bounds[1][i] - x[i])

@@ -171,10 +171,6 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
     return replace(result, flags=result.flags + tuple(extra)) if extra else result
 
 
-def _vector(out: LocalFit) -> np.ndarray:
-    return out.x
-
-
 def _scatter(problem: FitProblem) -> float | None:
     """Point-to-point scatter of the weighted data (see :mod:`fitz_tool.fitting.scatter`)."""
     return scatter_sigma(np.log(np.abs(problem.impedance)) * problem.weight_lnmag,
@@ -202,17 +198,30 @@ def _converged_well(problem: FitProblem, out: LocalFit, scatter: float | None) -
 
 def _search(problem: FitProblem, x0: np.ndarray, box: tuple[np.ndarray, np.ndarray],
             bounds: tuple[np.ndarray, np.ndarray], scale_covar: bool, scan: np.ndarray):
+    """The best local fit found from the seed and the global stages, and a sentence on how it was reached.
+
+    A sweep of more than ``SEARCH_POINTS`` points is searched on a decimated copy (evenly spaced points plus
+    every point beside a resonance, :func:`fitz_tool.fitting.problem.decimated`); the winner is then
+    polished on every point, so the work of the search does not grow with the file.
+    """
+    coarse = decimated(problem, SEARCH_POINTS)
+    out, stage = _stages(coarse, x0, box, bounds, scale_covar, scan)
+    if coarse is problem:
+        return out, stage
+    return (local_fit(problem, out.x, bounds[0], bounds[1], scale_covar),
+            f"{stage}, searched on {coarse.frequency.size} of {problem.frequency.size} points and polished "
+            "on all")
+
+
+def _stages(problem: FitProblem, x0: np.ndarray, box: tuple[np.ndarray, np.ndarray],
+            bounds: tuple[np.ndarray, np.ndarray], scale_covar: bool, scan: np.ndarray):
     """The fit from the seed, then cheaper-first global stages until the residuals look like noise.
 
     Stages: the seeded local fit; coordinate scans of the parameters without a user guess; starting points at
-    every resonance the data show (:mod:`fitz_tool.fitting.resonances`); a Sobol global search. The global
-    stages rank candidates on at most ``SEARCH_POINTS`` points (a decimated sweep that keeps every point
-    beside a resonance) and polish on all points. Returns the best local fit and a sentence on how it was
-    reached.
+    every resonance the data show (:mod:`fitz_tool.fitting.resonances`); a Sobol global search.
     """
     (lo, hi), (b_lo, b_hi) = box, bounds
     scatter = _scatter(problem)
-    coarse = decimated(problem, SEARCH_POINTS)
 
     def local(x):
         return local_fit(problem, x, b_lo, b_hi, scale_covar)
@@ -222,7 +231,7 @@ def _search(problem: FitProblem, x0: np.ndarray, box: tuple[np.ndarray, np.ndarr
         return out, stage
     if scan.any():
         x = x0.copy()
-        x[scan] = refine_by_scans(_Subproblem(coarse, x0, scan), x0[scan], lo[scan], hi[scan])
+        x[scan] = refine_by_scans(_Subproblem(problem, x0, scan), x0[scan], lo[scan], hi[scan])
         trial = local(x)
         if trial.chisqr < out.chisqr:
             out, stage = trial, "from the data-derived seed refined by parameter scans"
@@ -230,14 +239,14 @@ def _search(problem: FitProblem, x0: np.ndarray, box: tuple[np.ndarray, np.ndarr
             return out, stage
     intervals = resonance_intervals(problem.frequency, problem.impedance)
     if intervals:
-        candidates = np.vstack([resonance_starts(problem, base, intervals) for base in (x0, _vector(out))])
-        for x in _best_distinct(coarse, candidates, RESONANCE_POLISH):
+        candidates = np.vstack([resonance_starts(problem, base, intervals) for base in (x0, out.x)])
+        for x in _best_distinct(problem, candidates, RESONANCE_POLISH):
             trial = local(x)
             if trial.chisqr < out.chisqr * (1 - 1e-9):
                 out, stage = trial, "from starting points at the resonances seen in the data"
         if _converged_well(problem, out, scatter):
             return out, stage
-    x_global = global_search(coarse, lo, hi, b_lo, b_hi, starts=[x0, _vector(out)])
+    x_global = global_search(problem, lo, hi, b_lo, b_hi, starts=[x0, out.x])
     trial = local(x_global)
     if trial.chisqr < out.chisqr * (1 - 1e-9):
         return trial, "after a global search (the seeded fit left residuals above the noise)"
