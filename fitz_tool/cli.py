@@ -224,6 +224,38 @@ def _noise_and_band(args, measurement):
     return measurement
 
 
+def _add_message_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("messages")
+    group.add_argument("--quiet", action="store_true",
+                       help="no progress bar and no 'wrote PATH' lines (the report is still printed)")
+    group.add_argument("--verbose", action="store_true",
+                       help="add the raw figures: chi-square, AIC, optimiser message, Kramers-Kronig basis")
+
+
+def _say(text: str, stream=None) -> None:
+    """Print display text, spelled in ASCII (ohm, u, +/-) when the stream's encoding cannot show symbols."""
+    from .units import for_terminal
+
+    stream = stream or sys.stdout
+    print(for_terminal(text, getattr(stream, "encoding", None)), file=stream)
+
+
+def _wrote(paths, args) -> None:
+    """One ``wrote PATH`` line on stderr per file written (none with ``--quiet``)."""
+    if not getattr(args, "quiet", False):
+        for path in paths:
+            _say(f"wrote {path}", sys.stderr)
+
+
+def _progress_bar(args, total: int, what: str):
+    """A tqdm bar on stderr, or None when stderr is not a terminal or with ``--quiet``."""
+    if getattr(args, "quiet", False) or not sys.stderr.isatty():
+        return None
+    from tqdm import tqdm
+
+    return tqdm(total=total, desc=what, unit="model", file=sys.stderr, leave=False)
+
+
 def _figure_bytes(figure, fmt: str) -> bytes:
     import matplotlib.pyplot as plt
 
@@ -264,7 +296,8 @@ def _cmd_inspect(args) -> int:
 
         outputs[args.plot] = _figure_bytes(plot_measurement(measurement), fmt)
     write_outputs(outputs, inputs)
-    print(format_summary(summary, measurement))
+    _say(format_summary(summary, measurement, verbose=args.verbose))
+    _wrote(outputs, args)
     return 0
 
 
@@ -395,7 +428,23 @@ def _cmd_fit(args) -> int:
         inputs.append(args.accuracy_table)
     selection = None
     if args.model.strip().lower() == "auto":
-        selection = fit_auto(measurement, **constraints)
+        from .presets import default_candidates
+
+        bar = _progress_bar(args, len(default_candidates()), "ranking models")
+
+        started: list[str] = []
+
+        def step(expression: str) -> None:  # called as each candidate's fit starts
+            if bar is not None:
+                bar.update(1 if started else 0)
+                bar.set_postfix_str(expression)
+            started.append(expression)
+
+        try:
+            selection = fit_auto(measurement, **constraints, progress=step)
+        finally:
+            if bar is not None:
+                bar.close()
         result = selection.chosen
     else:
         circuit = resolve_model(args.model)
@@ -451,11 +500,12 @@ def _cmd_fit(args) -> int:
         outputs[args.report] = render_html_report(result, selection, design, record, figures,
                                                   budget=budget, extra_sections=extra)
     write_outputs(outputs, inputs)
-    print(format_fit_report(result, selection, design, budget=budget))
+    _say(format_fit_report(result, selection, design, budget=budget, verbose=args.verbose))
     if drive is not None:
         from .outputs.drive_report import format_drive_report
 
-        print(format_drive_report(drive), end="")
+        _say(format_drive_report(drive).rstrip("\n"))
+    _wrote(outputs, args)
     return 0
 
 
@@ -539,7 +589,8 @@ def _cmd_drive(args) -> int:
     if args.plot_dir:
         outputs.update(_drive_figure_outputs(drive, Path(args.fit_json).stem, args.plot_dir))
     write_outputs(outputs, inputs)
-    print(format_drive_report(drive), end="")
+    _say(format_drive_report(drive).rstrip("\n"))
+    _wrote(outputs, args)
     return 0
 
 
@@ -704,6 +755,7 @@ def build_parser() -> argparse.ArgumentParser:
     add_reader_options(inspect)
     inspect.add_argument("--plot", metavar="OUT.png", help="write a Bode plot of |Z| and phase")
     inspect.add_argument("--csv", metavar="OUT.csv", help="write the normalized impedance table")
+    _add_message_options(inspect)
     inspect.set_defaults(handler=_cmd_inspect)
 
     fitp = commands.add_parser("fit", help="fit an equivalent circuit to a bench file")
@@ -735,6 +787,7 @@ def build_parser() -> argparse.ArgumentParser:
                      help="frequencies of the --touchstone export, log-spaced (default: the measured ones), "
                           "e.g. 1M:3G:401")
     _add_drive_source(fitp.add_argument_group("the part under a periodic drive (see 'drive')"), "drive-")
+    _add_message_options(fitp)
     fitp.set_defaults(handler=_cmd_fit)
 
     drivep = commands.add_parser("drive", help="voltage, ripple and loss of a fitted part under a periodic "

@@ -19,10 +19,10 @@ import pandas as pd
 from .exceptions import InputError
 from .kramers_kronig import KramersKronigResult, lin_kk
 from .measurement import Measurement
-from .units import format_quantity
+from .units import format_quantity, with_symbols
 
 __all__ = ["RESISTIVE_DEG", "Band", "Resonance", "InspectionSummary", "summarize", "format_summary",
-           "measurement_table"]
+           "measurement_table", "character_sentence", "kramers_kronig_sentence"]
 
 #: Phase (deg) within which a point counts as resistive.
 RESISTIVE_DEG = 10.0
@@ -136,38 +136,94 @@ def summarize(measurement: Measurement) -> InspectionSummary:
                              kramers_kronig=kk, kramers_kronig_skipped=skipped)
 
 
-def format_summary(summary: InspectionSummary, measurement: Measurement) -> str:
-    """The summary as terminal text, engineering notation, with the provenance steps and warnings."""
+def character_sentence(summary: InspectionSummary) -> str:
+    """Where the part is inductive or capacitive, in one phrase: ``"inductive from 1.000 kHz to 9.80 MHz,
+    capacitive above"``.
+
+    Resistive runs between two reactive runs are the neighbourhood of a resonance (or noise inside one
+    character) and are absorbed; the change of character is placed at the apparent resonance. A resistive run
+    at either end of the sweep is named as such.
+    """
+    bands = list(summary.bands)
+    kept = [b for i, b in enumerate(bands)
+            if b.kind != "resistive" or i == 0 or i == len(bands) - 1]
+    merged: list[list] = []
+    for band in kept:
+        if merged and merged[-1][0] == band.kind:
+            merged[-1][2] = band.f_high
+        else:
+            merged.append([band.kind, band.f_low, band.f_high])
+    if not merged:
+        return "no points"
+    if len(merged) == 1:
+        kind = merged[0][0]
+        if kind == "resistive":
+            return f"nearly resistive throughout (|phase| < {RESISTIVE_DEG:g} deg)"
+        return f"{kind} throughout"
+    resonances = iter(summary.resonances)
+    starts = [merged[0][1]]
+    for before, after in zip(merged[:-1], merged[1:], strict=True):
+        if before[0] != "resistive" and after[0] != "resistive":
+            starts.append(next(resonances).frequency)
+        else:
+            starts.append(after[1])
+    words = {"resistive": f"nearly resistive (|phase| < {RESISTIVE_DEG:g} deg)"}
+    q = format_quantity
+    parts = [f"{words.get(kind, kind)} from {q(starts[i], 'Hz')} to {q(starts[i + 1], 'Hz')}"
+             for i, (kind, _, _) in enumerate(merged[:-1])]
+    parts.append(f"{words.get(merged[-1][0], merged[-1][0])} above")
+    return ", ".join(parts)
+
+
+def kramers_kronig_sentence(summary: InspectionSummary) -> str:
+    """The Kramers-Kronig check as one sentence: the verdict and the residual against the noise."""
+    kk = summary.kramers_kronig
+    if kk is None:
+        return f"not run ({summary.kramers_kronig_skipped})"
+    rms = f"{100 * kk.rms_residual:#.2g}".rstrip(".") + " % of |Z|"
+    noise = (" (" + f"{100 * kk.noise_level:#.2g}".rstrip(".") + " %)") if np.isfinite(kk.noise_level) else ""
+    if kk.consistent:
+        return f"consistent with a causal, linear part: residual {rms}, at the noise level{noise}"
+    return (f"residual {rms}, above the noise level{noise}: check for channel delay, drift or fixture "
+            f"effects (ferrite beads are hard for this check, so it may be the check's own limit)")
+
+
+def format_summary(summary: InspectionSummary, measurement: Measurement, verbose: bool = False) -> str:
+    """The summary as terminal text (engineering notation, unit symbols), with the provenance steps and
+    warnings. ``verbose`` adds the figures behind the Kramers-Kronig verdict (basis size, mu, limit)."""
+    from .outputs.wording import describe_form
+
     q = format_quantity
     p = measurement.provenance
-    lines = [f"file      {p.source or '(built in code)'}",
-             f"form      {p.form}",
+    lines = [f"read as   {describe_form(measurement)}",
              f"points    {summary.points}",
              f"range     {q(summary.f_min, 'Hz')} to {q(summary.f_max, 'Hz')}",
-             f"|Z|       {q(summary.z_min, 'ohm')} (at {q(summary.f_at_z_min, 'Hz')}) to "
-             f"{q(summary.z_max, 'ohm')} (at {q(summary.f_at_z_max, 'Hz')})",
-             f"character (resistive: |phase| < {RESISTIVE_DEG:g} deg)"]
+             f"|Z|       smallest measured {q(summary.z_min, 'ohm')} (at {q(summary.f_at_z_min, 'Hz')}), "
+             f"largest measured {q(summary.z_max, 'ohm')} (at {q(summary.f_at_z_max, 'Hz')})",
+             f"character {character_sentence(summary)}",
+             f"  by run of points (|phase| < {RESISTIVE_DEG:g} deg counts as resistive):"]
     for band in summary.bands:
         lines.append(f"  {band.kind:<10} {q(band.f_low, 'Hz')} to {q(band.f_high, 'Hz')} "
                      f"({band.points} points)")
     if summary.resonances:
-        lines.append("apparent resonances (phase crosses 0 deg)")
+        lines.append("apparent resonances (phase crosses 0 deg; |Z| there interpolated between points)")
         for r in summary.resonances:
-            lines.append(f"  {r.kind:<8} at {q(r.frequency, 'Hz')}, |Z| {q(r.magnitude, 'ohm')} "
-                         f"(|Z| {r.extremum})")
+            peak = "interpolated peak" if r.extremum == "maximum" else "interpolated dip"
+            lines.append(f"  {r.kind:<8} at {q(r.frequency, 'Hz')}, {peak} |Z| {q(r.magnitude, 'ohm')}")
     else:
         lines.append("apparent resonances: none in the measured range")
-    if summary.kramers_kronig is not None:
-        lines.append(f"Kramers-Kronig (Lin-KK): {summary.kramers_kronig.note}")
-    else:
-        lines.append(f"Kramers-Kronig (Lin-KK): not run ({summary.kramers_kronig_skipped})")
+    lines.append(f"Kramers-Kronig (Lin-KK): {kramers_kronig_sentence(summary)}")
+    if verbose and summary.kramers_kronig is not None:
+        kk = summary.kramers_kronig
+        lines.append(f"  detail: {kk.note}")
+        lines.append(f"  basis: {kk.n_elements} elements, mu = {kk.mu:.2f}, fitted as {kk.representation}")
     if p.steps:
         lines.append("steps")
         lines += [f"  - {step}" for step in p.steps]
     if p.warnings:
         lines.append("warnings")
         lines += [f"  ! {warning}" for warning in p.warnings]
-    return "\n".join(lines)
+    return "\n".join([f"file      {p.source or '(built in code)'}"] + [with_symbols(x) for x in lines])
 
 
 def measurement_table(measurement: Measurement) -> pd.DataFrame:

@@ -14,6 +14,7 @@ from .exceptions import InputError
 __all__ = [
     "SI_PREFIXES", "prefix_factor", "parse_quantity", "format_quantity", "format_relative",
     "format_to_resolution", "HEADER_BASES", "read_unit",
+    "format_interval", "with_symbols", "to_ascii", "for_terminal",
 ]
 
 #: Multipliers of the SI prefixes (both "u" and the micro sign are accepted for 1e-6).
@@ -89,8 +90,25 @@ def format_quantity(value: float, unit: str = "", stderr: float | None = None) -
     return f"{format_to_resolution(value, unit, stderr)} +/- {format_relative(stderr, value)}"
 
 
+#: Pure numbers below this magnitude are written with a power of ten that is a multiple of 3
+#: (``"18.955e-6"``), not with a run of leading zeros (``"0.000018955"``).
+PLAIN_SMALLEST = 1e-3
+
+
 def _plain(value: float, resolution: float | None) -> str:
-    """A pure number in plain digits: down to two significant digits of ``resolution``, else four."""
+    """A pure number: down to two significant digits of ``resolution``, else four.
+
+    Plain digits from 1e-3 up; a smaller number keeps the same digits with a power of ten that is a multiple
+    of 3, ``"18.955e-6"``.
+    """
+    if value != 0 and abs(value) < PLAIN_SMALLEST:
+        exponent = _prefix_exponent(value)
+        scale = 10.0**exponent
+        scaled_res = None if resolution is None else resolution / scale
+        mantissa = _plain(value / scale, scaled_res)
+        if abs(float(mantissa)) >= 1000:  # rounding carried into the next power (999.96e-6 -> 1.000e-3)
+            return _plain(float(mantissa) * scale, resolution)
+        return f"{mantissa}e{exponent}"
     if resolution is None or not (math.isfinite(resolution) and resolution > 0):
         return f"{value:.4g}"
     return f"{value:.{min(max(0, 1 - _decade(resolution)), 12)}f}"
@@ -233,3 +251,69 @@ def read_unit(text: str) -> tuple[str, str, str | None] | None:
     if convention is not None and base not in ("V", "A"):
         return None
     return prefix, base, convention
+
+# --- display: intervals and unit symbols ------------------------------------------------------------
+
+
+def format_interval(low: float, high: float, unit: str, resolution: float | None = None) -> str:
+    """Both ends of an interval with one SI prefix: ``"999.35 to 1000.51 nH"``, never ``"999.35 nH to
+    1.00051 uH"``.
+
+    The prefix is the one engineering notation gives the end of larger magnitude; the ends show digits
+    down to two significant digits of ``resolution`` (default: a tenth of the width).
+    """
+    if not (math.isfinite(low) and math.isfinite(high)):
+        return f"{format_quantity(low, unit)} to {format_quantity(high, unit)}"
+    width = abs(high - low)
+    if resolution is None or not (math.isfinite(resolution) and resolution > 0):
+        resolution = width / 10 if width > 0 else abs(high) * 1e-4 or 1.0
+    if unit == "":
+        return f"{_plain(low, resolution)} to {_plain(high, resolution)}"
+    big = max(abs(low), abs(high))
+    if big == 0:
+        return f"0 to 0 {unit}"
+    last = _decade(resolution) - 1
+    exponent = _prefix_exponent(round(big / 10.0**last) * 10.0**last)
+    exponent = min(max(exponent, -15), 12)
+    prefix = {-15: "f", -12: "p", -9: "n", -6: "u", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}[exponent]
+    places = min(max(0, exponent - last), 9)
+    ends = [f"{v / 10.0**exponent:.{places}f}".replace("-0." + "0" * places, "0." + "0" * places)
+            if places else f"{v / 10.0**exponent:.0f}" for v in (low, high)]
+    return f"{ends[0]} to {ends[1]} {prefix}{unit}"
+
+
+_OHM_AFTER_NUMBER = re.compile(r"(?<=\d)( ?)([fpnumkMGT]?)ohms?\b")
+_MICRO_AFTER_NUMBER = re.compile(r"(?<=\d )u(?=(?:[A-Za-z\u03a9]{1,2})?\b)")
+
+
+def with_symbols(text: str) -> str:
+    """Unit symbols in display text: ``"17.9 mohm"`` -> ``"17.9 m\u03a9"``, ``"22 uH"`` -> ``"22 \u00b5H"``,
+    ``"+/-"`` -> ``"\u00b1"``.
+
+    Only a unit that follows a number is changed, so words ("ohm" in a column header) stay as they are.
+    """
+    text = _OHM_AFTER_NUMBER.sub(lambda m: f"{m.group(1)}{m.group(2)}\u03a9", text)
+    text = _MICRO_AFTER_NUMBER.sub("\u00b5", text)
+    return text.replace("+/-", "\u00b1")
+
+
+_ASCII = {"\u03a9": "ohm", "\u2126": "ohm", "\u00b5": "u", "\u03bc": "u", "\u00b1": "+/-", "\u00b0": " deg",
+          "\u2212": "-", "\u2013": "-", "\u2014": "-", "\u00d7": "x", "\u2264": "<=", "\u2265": ">=",
+          "\u2248": "~", "\u00b2": "^2", "\u00b3": "^3", "\u2192": "->"}
+
+
+def to_ascii(text: str) -> str:
+    """The ASCII spelling of display text (``\u03a9`` -> ``ohm``, ``\u00b5`` -> ``u``, ``\u00b1`` ->
+    ``+/-``); any other character outside ASCII becomes ``?``."""
+    for symbol, spelled in _ASCII.items():
+        text = text.replace(symbol, spelled)
+    return text.encode("ascii", errors="replace").decode("ascii")
+
+
+def for_terminal(text: str, encoding: str | None) -> str:
+    """``text`` as it is when ``encoding`` can show it, else its :func:`to_ascii` spelling."""
+    try:
+        text.encode(encoding or "ascii")
+    except (UnicodeEncodeError, LookupError):
+        return to_ascii(text)
+    return text

@@ -79,13 +79,17 @@ def test_report_has_every_section(hostile_report):
     names = result.correlation_names
     rel_percent = 100 * result.parameters["L1"].stderr / result.parameters["L1"].value
     corr_l_cp = result.correlation[names.index("L1"), names.index("Cp")]
-    for heading in ("Part and input", "Options of this run", "Conversions and corrections applied", "Model",
-                    "Fitted values", "Correlation matrix", "Fit quality", "Flags", "Design values", "Plots",
-                    "Safety"):
-        assert f"<h2>{heading}</h2>" in html
+    headings = ["Fitted values", "Design values", "Plots", "Fit quality", "Flags", "Measurement warnings",
+                "Model choice", "Correlation matrix", "Safety"]
+    # results first, provenance last: the headings come in this order, the record at the very end
+    positions = [html.index(f"<h2>{heading}</h2>") for heading in headings]
+    assert positions == sorted(positions)
+    assert html.index('<h2 id="provenance">') > positions[-1]
+    for summary in ("Part and input", "How the data was read and corrected", "Options of this run"):
+        assert html.index(f"<details><summary>{summary}</summary>") > html.index('<h2 id="provenance">')
     assert "ab" * 32 in html  # the input checksum
     # value, its relative error (two digits) and the L1-Cp correlation, all from the test's own covariance
-    assert f"22.0000 uH +/- {rel_percent:.2g} %" in html and f"{corr_l_cp:.3f}" in html
+    assert f"22.0000 \u00b5H \u00b1 {rel_percent:.2g} %" in html and f"{corr_l_cp:.3f}" in html
     assert corr_l_cp < -0.5  # L and C of one resonance trade against each other (common practice, no source)
     assert "--at" in html and "100k" in html and "0.1.0" in html
     for caution in ("Stored charge", "scope ground clip", "Shunt dissipation", "Instrument ratings",

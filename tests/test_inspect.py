@@ -64,7 +64,7 @@ def test_summary_text_uses_engineering_notation_and_shows_history():
     m = choke()
     text = format_summary(summarize(m), m)
     assert "1.000 kHz to 100.0 MHz" in text
-    assert "parallel" in text and "MHz" in text and "kohm" in text
+    assert "parallel" in text and "MHz" in text and "k\u03a9" in text
     assert "read choke.csv" in text and "dropped 1 row(s) at 0 Hz" in text
 
 

@@ -54,9 +54,12 @@ def test_terminal_report_reads_like_a_bench_notebook():
     assert "Model: Rs + L1 || Cp" in text
     assert "Model ranking" in text and "misses the resonance" in text
     rel_percent = 100 * result.parameters["L1"].stderr / 22e-6  # the test's own Cramer-Rao covariance
-    assert f"L1    22.0000 uH +/- {rel_percent:.2g} %" in text  # value digits limited by its standard error
-    for item in ("reduced chi-square", "AIC", "BIC", "free parameters", "weighting", "converged"):
+    assert f"L1    22.0000 \u00b5H \u00b1 {rel_percent:.2g} %" in text  # digits limited by its standard error
+    for item in ("residual scatter", "BIC", "free parameters", "weighting", "converged"):
         assert item in text
+    assert "reduced chi-square" not in text  # without stated noise it means nothing to the reader
+    verbose = format_fit_report(result, _selection(result), design_values(result, [100e3]), verbose=True)
+    assert "reduced chi-square" in verbose and "AIC" in verbose
     # parallel SRF of 22 uH || 15 pF: 1/(2 pi sqrt(L C)) = 8.761 MHz (common practice, no source)
     f0 = 1 / (2 * math.pi * math.sqrt(22e-6 * 15e-12))
     assert f"SRF (parallel, in the sweep): {f0 / 1e6:.3f}" in text
@@ -68,7 +71,7 @@ def test_values_without_uncertainty_say_why():
     text = format_fit_report(result, None, design_values(result, [100e3]))
     assert "covariance could not be computed" in text
     assert format_value(0.8734, "", None) == "0.8734"
-    assert format_value(0.8734, "", 0.0021) == "0.8734 +/- 0.24 %"  # 0.0021 / 0.8734 = 0.24 %
+    assert format_value(0.8734, "", 0.0021) == "0.8734 \u00b1 0.24 %"  # 0.0021 / 0.8734 = 0.24 %
 
 
 def test_json_follows_the_machine_interface_and_is_strict():

@@ -18,7 +18,7 @@ Rule (documented in ``ModelSelection.reason`` of every choice):
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 
 from ..circuit import Circuit
 from ..exceptions import FitError
@@ -57,7 +57,7 @@ def is_adequate(result: FitResult) -> tuple[bool, str]:
 def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, *,
              fixed: Mapping[str, float] | None = None, guesses: Mapping[str, float] | None = None,
              bounds: Mapping[str, tuple[float, float]] | None = None,
-             intervals: str = "flagged") -> ModelSelection:
+             intervals: str = "flagged", progress: Callable[[str], None] | None = None) -> ModelSelection:
     """Fit every candidate and choose the simplest adequate model (rule in the module docstring).
 
     Parameters
@@ -78,6 +78,8 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
     expressions = list(dict.fromkeys(resolve_model(c) for c in (candidates or default_candidates())))
     ranked: list[RankedModel] = []
     for expression in expressions:
+        if progress is not None:  # optional callback, e.g. a progress bar at the CLI
+            progress(expression)
         circuit = Circuit.parse(expression)
         try:
             result = fit(measurement, circuit, fixed=_only(fixed, circuit), guesses=_only(guesses, circuit),

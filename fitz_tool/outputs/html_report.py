@@ -17,11 +17,15 @@ import numpy as np
 
 from ..derived import DesignValues
 from ..results import FitResult, ModelSelection
-from .report import RunRecord, format_derived_value, format_value, parameter_rows, quality_rows
+from ..units import with_symbols
+from .report import RunRecord, format_derived_value, format_value, parameter_rows, quality_rows, read_as_line
+from .wording import plain_message, verdict
 
 __all__ = ["render_html_report", "SAFETY_NOTES", "FIGURE_CAPTIONS"]
 
 FIGURE_CAPTIONS: dict[str, str] = {
+    "resistance_reactance": "Resistance R = Re Z and reactance X = Im Z over frequency, measured and fitted; "
+                            "|X| on a log scale, filled markers inductive (X > 0), open markers capacitive.",
     "bode": "Measured and fitted |Z| and phase over frequency; below each, the residual (relative |Z| in "
             "%, phase in degrees) over a band of the one-sigma noise. Dashed green: self-resonance; "
             "dotted purple: operating frequencies.",
@@ -58,6 +62,9 @@ td.num { text-align: right; font-family: monospace; }
 code, .mono { font-family: monospace; }
 .flag { color: #a04000; }
 .safety { border-left: 4px solid #D55E00; padding-left: 1em; }
+.verdict { font-size: 1.05em; padding: 0.4em 0.8em; background: #f3f3ea; border-left: 4px solid #444; }
+details { margin: 0.4em 0; } summary { cursor: pointer; font-weight: bold; }
+th[scope=row] { background: #f6f6f6; font-weight: normal; }
 figure { margin: 1em 0; } figure img { max-width: 100%; }
 """
 
@@ -82,6 +89,12 @@ def _table(header: tuple[str, ...], rows, numeric: tuple[int, ...] = ()) -> str:
     return f"<table><tr>{head}</tr>{''.join(body)}</table>"
 
 
+def _rows_table(rows) -> str:
+    """A two-column table whose first column labels each row (no header row)."""
+    body = "".join(f'<tr><th scope="row">{_e(k)}</th><td>{_e(v)}</td></tr>' for k, v in rows)
+    return f"<table>{body}</table>"
+
+
 def _list(items, css: str = "") -> str:
     if not items:
         return "<p>none</p>"
@@ -101,14 +114,14 @@ def _correlation(result: FitResult) -> str:
     names = result.correlation_names
     corr = np.asarray(result.correlation)
     rows = [(n, *(f"{c:+.3f}" if math.isfinite(c) else "-" for c in corr[i])) for i, n in enumerate(names)]
-    return _table(("", *names), rows, numeric=tuple(range(1, len(names) + 1)))
+    return _table(("parameter", *names), rows, numeric=tuple(range(1, len(names) + 1)))
 
 
 def _ranking(selection: ModelSelection | None) -> str:
     if selection is None:
         return "<p>Model given by the user (no automatic choice).</p>"
     rows = [(k + 1, r.expression, f"{r.bic:.1f}" if math.isfinite(r.bic) else "-",
-             "yes" if r.adequate else "no", r.note) for k, r in enumerate(selection.ranking)]
+             "yes" if r.adequate else "no", with_symbols(r.note)) for k, r in enumerate(selection.ranking)]
     return (f"<p>Candidates ranked by BIC (lowest first). Chosen: <code>"
             f"{_e(selection.chosen.circuit.expression)}</code>. {_e(selection.reason)}</p>"
             + _table(("#", "model", "BIC", "adequate", "note"), rows, numeric=(0, 2)))
@@ -122,7 +135,7 @@ def _design(design: DesignValues) -> str:
     if rows:
         parts.append(_table(("self-resonance", "in the sweep", "frequency", "resonator Q"), rows))
     if design.resonance_note:
-        parts.append(f"<p>Self-resonance: {_e(design.resonance_note)}</p>")
+        parts.append(f"<p>Self-resonance: {_e(with_symbols(design.resonance_note))}</p>")
     for point in design.points:
         where = "" if point.in_sweep else " - extrapolated, outside the sweep"
         title = f"At {format_value(point.frequency, 'Hz')} ({point.character}{where})"
@@ -145,7 +158,7 @@ def _part(result: FitResult, record: RunRecord | None) -> str:
              if m.sigma_lnmag is not None else "not stated: estimated from the residuals")]
     rows += [(f"column: {role}", f"{header} [{prov.units.get(role, '')}]".replace(" []", ""))
              for role, header in prov.columns.items()]
-    html = _table(("", ""), rows)
+    html = _rows_table(rows)
     if record is not None and record.inputs:
         html += "<p>All files read in this run:</p>" + _table(
             ("file", "SHA-256"), [(i.path, i.sha256 or "(not readable)") for i in record.inputs])
@@ -175,18 +188,20 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
     options = [] if record is None else [
         (k if k in ("command", "file") else f"--{k.replace('_', '-')}", v)
         for k, v in record.options.items() if v != ""]
+    plots = []
+    for key, figure in figures.items():
+        caption = FIGURE_CAPTIONS.get(key) or _DRIVE_CAPTIONS().get(key, key)
+        plots.append(f'<figure><img alt="{_e(key)} plot" src="data:image/png;base64,{_figure_png(figure)}">'
+                     f"<figcaption>{_e(caption)}</figcaption></figure>")
+    how = "chosen automatically (see Model choice)" if selection is not None else "given by the user"
+    summary = (f'<p class="verdict"><b>Verdict:</b> {_e(verdict(result))}.<br><b>Model:</b> '
+               f"<code>{_e(result.circuit.expression)}</code> ({how}).<br><b>Read:</b> "
+               f"{_e(with_symbols(read_as_line(result)))}.</p>")
+    values = _table(("parameter", "value", "SI value", "note"),
+                    [(n, v, f"{result.parameters[n].value:.10g}", note)
+                     for n, v, note in parameter_rows(result)], numeric=(2,))
     sections = [
-        ("Part and input", _part(result, record)),
-        ("Options of this run", _table(("option", "value"), options) if options else "<p>Not recorded.</p>"),
-        ("Conversions and corrections applied", _list(prov.steps)),
-        ("Measurement warnings", _list(prov.warnings, "flag")),
-        ("Model", f"<p><code>{_e(result.circuit.expression)}</code></p>" + _ranking(selection)),
-        ("Fitted values", _table(("parameter", "value", "SI value", "note"),
-                                 [(n, v, f"{result.parameters[n].value:.10g}", note)
-                                  for n, v, note in parameter_rows(result)], numeric=(2,))),
-        ("Correlation matrix", _correlation(result)),
-        ("Fit quality", _table(("measure", "value"), quality_rows(result))),
-        ("Flags", _list(result.flags, "flag")),
+        ("Fitted values", values.replace("<table>", '<table id="values">', 1)),
         ("Design values", _design(design)),
     ]
     if budget is not None:
@@ -194,21 +209,29 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
 
         sections.append(("Uncertainty budget", budget_html(budget)))
     sections += list(extra_sections)
-    plots = []
-    for key, figure in figures.items():
-        caption = FIGURE_CAPTIONS.get(key) or _DRIVE_CAPTIONS().get(key, key)
-        plots.append(f'<figure><img alt="{_e(key)} plot" src="data:image/png;base64,{_figure_png(figure)}">'
-                     f"<figcaption>{_e(caption)}</figcaption></figure>")
-    sections.append(("Plots", "".join(plots) or "<p>No plots.</p>"))
+    sections += [
+        ("Plots", "".join(plots) or "<p>No plots.</p>"),
+        ("Fit quality", _rows_table(quality_rows(result))),
+        ("Flags", _list([with_symbols(plain_message(f)) for f in result.flags], "flag")),
+        ("Measurement warnings", _list([with_symbols(w) for w in prov.warnings], "flag")),
+        ("Model choice", f"<p><code>{_e(result.circuit.expression)}</code></p>" + _ranking(selection)),
+        ("Correlation matrix", _correlation(result)),
+    ]
     safety = "".join(f"<p><b>{_e(title)}.</b> {_e(text)}</p>" for title, text in SAFETY_NOTES)
     safety += ("<p>These notes are no substitute for training: follow your local electrical codes, your "
                "site's safety rules and licensed practice for any work on hazardous voltages.</p>")
     sections.append(("Safety", f'<div class="safety">{safety}</div>'))
     version = record.version if record is not None else ""
     date = record.date if record is not None else ""
+    provenance = (
+        "<details><summary>Part and input</summary>" + _part(result, record) + "</details>"
+        + "<details><summary>How the data was read and corrected</summary>"
+        + _list([with_symbols(step) for step in prov.steps]) + "</details>"
+        + "<details><summary>Options of this run</summary>"
+        + (_table(("option", "value"), options) if options else "<p>Not recorded.</p>") + "</details>")
     body = "".join(f"<h2>{_e(title)}</h2>{content}" for title, content in sections)
-    footer = f"<p><small>fitz_tool {_e(version)}, {_e(date)}</small></p>"
+    body += f'<h2 id="provenance">Provenance and run record</h2>{provenance}'
+    footer = f"<p><small>fitz_tool {_e(version)}, {_e(date)} (UTC)</small></p>"
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             f"<title>{_e('Equivalent circuit of ' + part)}</title><style>{_STYLE}</style></head><body>"
-            f"<h1>{_e('Equivalent circuit of ' + part)}</h1>"
-            f"<p>Made by fitz_tool {_e(version)} on {_e(date)} (UTC).</p>{body}{footer}</body></html>\n")
+            f"<h1>{_e('Equivalent circuit of ' + part)}</h1>{summary}{body}{footer}</body></html>\n")

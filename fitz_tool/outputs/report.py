@@ -19,13 +19,14 @@ import numpy as np
 
 from ..derived import DerivedValue, DesignValues
 from ..results import FitResult, ModelSelection
-from ..units import format_quantity, format_to_resolution
+from ..units import format_interval, format_quantity, format_to_resolution, with_symbols
+from .wording import describe_form, fit_quality, format_p_value, plain_message, quality_sentence, verdict
 
 if TYPE_CHECKING:
     import pandas as pd
 
 __all__ = ["InputFile", "RunRecord", "run_record", "format_fit_report", "fit_to_json", "curve_table",
-           "format_value", "format_derived_value"]
+           "format_value", "format_derived_value", "read_as_line"]
 
 
 @dataclass(frozen=True)
@@ -100,10 +101,10 @@ def format_value(value: float, unit: str, stderr: float | None = None) -> str:
     Either way the value shows two significant digits of its uncertainty and no more.
     """
     if unit != "deg" or not math.isfinite(value):
-        return format_quantity(value, unit, stderr)
+        return with_symbols(format_quantity(value, unit, stderr))
     if stderr is None or not math.isfinite(stderr) or stderr <= 0:
         return f"{format_quantity(value, '')} deg"
-    return f"{format_to_resolution(value, '', stderr)} deg +/- {stderr:.2g} deg"
+    return with_symbols(f"{format_to_resolution(value, '', stderr)} deg +/- {stderr:.2g} deg")
 
 
 def format_derived_value(value: DerivedValue) -> str:
@@ -111,10 +112,10 @@ def format_derived_value(value: DerivedValue) -> str:
     if math.isnan(value.value) and value.note.startswith(("undetermined", "undefined")):
         return value.note
     if not math.isfinite(value.value):
-        return f"{'infinite' if value.value > 0 else 'undefined'} ({value.note})"
+        return with_symbols(f"{'infinite' if value.value > 0 else 'undefined'} ({value.note})")
     text = format_value(value.value, value.unit, value.stderr)
     if value.stderr is None and value.note:
-        text += f"  ({value.note})"
+        text += f"  ({with_symbols(value.note)})"
     return text
 
 
@@ -137,26 +138,36 @@ def parameter_rows(result: FitResult) -> list[tuple[str, str, str]]:
             note = note or "fixed by user"
         if p.interval is not None and p.stderr is not None:
             low, high = p.interval
-            ends = [format_to_resolution(v, p.unit, (high - low) / 2) for v in (low, high)]
-            note = (note + "; " if note else "") + f"68 % profile interval {ends[0]} to {ends[1]}"
-        rows.append((p.name, format_value(p.value, p.unit, p.stderr), note))
+            ends = format_interval(low, high, p.unit, (high - low) / 2)
+            note = (note + "; " if note else "") + f"68 % profile interval {ends}"
+        rows.append((p.name, format_value(p.value, p.unit, p.stderr), with_symbols(note)))
     return rows
 
 
-def quality_rows(result: FitResult) -> list[tuple[str, str]]:
-    """(measure, value) pairs describing the fit quality."""
-    return [
-        ("converged", "yes" if result.success else "NO"),
-        ("message", result.message),
-        ("chi-square", f"{result.chi_square:.6g}"),
-        ("reduced chi-square", f"{result.reduced_chi_square:.4g}"),
-        ("AIC", f"{result.aic:.1f}"),
-        ("BIC", f"{result.bic:.1f}"),
-        ("points (complex)", str(result.n_points)),
-        ("free parameters", str(result.n_free)),
-        ("degrees of freedom", str(result.degrees_of_freedom)),
-        ("weighting", result.weighting or "not stated"),
-    ]
+def quality_rows(result: FitResult, verbose: bool = False) -> list[tuple[str, str]]:
+    """(measure, value) pairs describing the fit quality in words.
+
+    Without stated noise the residual scatter is the measure (a reduced chi-square of relative weights means
+    nothing to the reader); with stated noise, chi-square and its p-value. ``verbose`` adds the raw figures
+    (chi-square, reduced chi-square, AIC) and the optimiser's own message.
+    """
+    quality = fit_quality(result)
+    said = plain_message(result.message)
+    if result.success and said.startswith("converged"):
+        said = said.removeprefix("converged").removeprefix(":").strip()
+    rows = [("converged", ("yes" if result.success else "NO")
+                          + (f" {said}" if said.startswith("(") else f", {said}" if said else "")),
+            ("residuals", quality_sentence(quality)),
+            ("points", f"{result.n_points} (complex), {result.n_free} free parameters, "
+                       f"{result.degrees_of_freedom} degrees of freedom"),
+            ("BIC", f"{result.bic:.1f} (for comparing models on the same data: lower is better)"),
+            ("weighting", result.weighting or "not stated")]
+    if verbose:
+        rows += [("chi-square", f"{result.chi_square:.6g}"),
+                 ("reduced chi-square", f"{result.reduced_chi_square:.4g}"),
+                 ("AIC", f"{result.aic:.1f}"),
+                 ("optimiser message", result.message)]
+    return rows
 
 
 def design_lines(design: DesignValues) -> list[str]:
@@ -184,38 +195,47 @@ SAFETY_LINE = ("Safety: discharge capacitors before handling them; never clip a 
                "(README, Safety).")
 
 
+def read_as_line(result: FitResult) -> str:
+    """``"voltage and current phasors ..., 113 points, 1.000 kHz to 30.00 MHz"``."""
+    m = result.measurement
+    return (f"{describe_form(m)}, {len(m)} points, {format_value(m.frequency[0], 'Hz')} to "
+            f"{format_value(m.frequency[-1], 'Hz')}")
+
+
 def format_fit_report(result: FitResult, selection: ModelSelection | None, design: DesignValues,
-                      budget=None) -> str:
-    """Terminal report: model, ranking (auto), parameters, fit quality, flags, design values, warnings.
+                      budget=None, verbose: bool = False) -> str:
+    """Terminal report, results first: verdict, parameters, design values, budget; then fit quality, flags
+    and the model ranking (auto); then what was read and done (provenance). Unit symbols (Omega, micro)
+    throughout: print it through :func:`fitz_tool.units.for_terminal` where the encoding may not show them.
 
     ``budget`` (a :class:`fitz_tool.budget.Budget`) adds the uncertainty budget; without it the report says
-    that the uncertainties are from noise only.
+    that the uncertainties are from noise only. ``verbose`` adds the raw fit figures.
     """
     prov = result.measurement.provenance
-    m = result.measurement
-    lines = [f"Part: {prov.source or '(data built in code)'}",
-             f"Input: {prov.form}, {len(m)} points, {format_value(m.frequency[0], 'Hz')} to "
-             f"{format_value(m.frequency[-1], 'Hz')}",
-             f"Model: {result.circuit.expression}"]
-    if prov.steps:
-        lines += ["", "Conversions and corrections applied:"] + [f"  - {step}" for step in prov.steps]
+    how = "chosen automatically, see the ranking below" if selection is not None else "given by the user"
+    head = [f"Part: {prov.source or '(data built in code)'}"]
+    lines = [f"Read: {read_as_line(result)}",
+             f"Model: {result.circuit.expression}  ({how})",
+             f"Verdict: {verdict(result)}"]
+    lines += ["", "Parameters:"] + _table(parameter_rows(result), ("name", "value", "note"))
+    lines += ["", "Design values:"] + design_lines(design)
+    from .budget_report import NOISE_ONLY_LINE, budget_lines
+
+    lines += budget_lines(budget) if budget is not None else ["", NOISE_ONLY_LINE]
+    lines += ["", "Fit quality:"] + [f"  {k:<10} {v}" for k, v in quality_rows(result, verbose)]
+    lines += ["", "Flags:"] + ([f"  - {plain_message(f)}" for f in result.flags] or ["  none"])
+    if prov.warnings:
+        lines += ["", "Measurement warnings:"] + [f"  - {w}" for w in prov.warnings]
     if selection is not None:
         lines += ["", f"Model ranking (lowest BIC first; chosen: {selection.chosen.circuit.expression}):"]
         rows = [(str(k + 1), r.expression, f"{r.bic:.1f}" if math.isfinite(r.bic) else "-",
                  "yes" if r.adequate else "no", r.note) for k, r in enumerate(selection.ranking)]
         lines += _table(rows, ("#", "model", "BIC", "adequate", "note"))
         lines.append(f"  why: {selection.reason}")
-    lines += ["", "Parameters:"] + _table(parameter_rows(result), ("name", "value", "note"))
-    lines += ["", "Fit quality:"] + [f"  {k:<20} {v}" for k, v in quality_rows(result)]
-    lines += ["", "Flags:"] + ([f"  - {f}" for f in result.flags] or ["  none"])
-    lines += ["", "Design values:"] + design_lines(design)
-    from .budget_report import NOISE_ONLY_LINE, budget_lines
-
-    lines += budget_lines(budget) if budget is not None else ["", NOISE_ONLY_LINE]
-    if prov.warnings:
-        lines += ["", "Measurement warnings:"] + [f"  - {w}" for w in prov.warnings]
+    if prov.steps:
+        lines += ["", "How the data was read and corrected:"] + [f"  - {step}" for step in prov.steps]
     lines += ["", SAFETY_LINE]
-    return "\n".join(lines) + "\n"
+    return "\n".join(head + [with_symbols(line) for line in lines]) + "\n"
 
 
 # ---------------------------------------------------------------------------------------------- JSON
@@ -245,6 +265,14 @@ def derived_to_json(design: DesignValues) -> dict:
     }
 
 
+def _quality_json(result: FitResult) -> dict:
+    q = fit_quality(result)
+    return {"scatter_abs_rel": _num(q.scatter_abs), "scatter_phase_deg": _num(q.scatter_phase_deg),
+            "stated_noise": q.stated_noise, "p_value": _num(q.p_value),
+            "p_value_text": None if q.p_value is None else format_p_value(q.p_value),
+            "sentence": quality_sentence(q)}
+
+
 def fit_to_json(result: FitResult, selection: ModelSelection | None, design: DesignValues,
                 record: RunRecord | None, budget=None) -> dict:
     """The stable machine record of a fit (SI units, JSON-safe: no NaN or infinity, ``null`` instead).
@@ -271,7 +299,11 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
                                 "interval": None if p.interval is None else [_num(v) for v in p.interval],
                                 "interval_note": p.interval_note}
                        for p in result.parameters.values()},
+        "read_as": describe_form(result.measurement),
+        "verdict": verdict(result),
+        "quality": _quality_json(result),
         "fit": {"success": bool(result.success), "message": result.message,
+                "message_plain": plain_message(result.message),
                 "chi_square": _num(result.chi_square), "reduced_chi_square": _num(result.reduced_chi_square),
                 "aic": _num(result.aic), "bic": _num(result.bic), "n_points": int(result.n_points),
                 "n_free": int(result.n_free), "degrees_of_freedom": int(result.degrees_of_freedom),
