@@ -73,7 +73,8 @@ def test_every_reader_form_code_has_words():
 
 def test_quality_without_stated_noise_is_the_residual_scatter():
     fitted = synthetic_result()
-    unstated = dataclasses.replace(fitted.measurement, sigma_lnmag=None, sigma_phase=None, sigma_absolute=False)
+    unstated = dataclasses.replace(fitted.measurement, sigma_lnmag=None, sigma_phase=None,
+                                   sigma_absolute=False)
     result = dataclasses.replace(fitted, measurement=unstated)
     q = fit_quality(result)
     residual = result.log_residuals()
