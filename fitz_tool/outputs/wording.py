@@ -11,7 +11,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.stats import chi2
 
 from ..measurement import Measurement
 from ..results import FitResult
@@ -118,6 +117,8 @@ def fit_quality(result: FitResult) -> FitQuality:
     dof = int(result.degrees_of_freedom)
     p_value = None
     if stated and dof > 0 and math.isfinite(result.chi_square):
+        from scipy.stats import chi2  # only here: scipy.stats is slow to import
+
         p_value = float(chi2.sf(result.chi_square, dof))  # upper tail (common practice, no source)
     return FitQuality(scatter_abs=float(np.sqrt(np.mean(residual.real**2))),
                       scatter_phase_deg=float(np.degrees(np.sqrt(np.mean(residual.imag**2)))),
