@@ -134,3 +134,12 @@ def test_a_single_value_option_given_twice_is_an_error(choke, capsys, argv, mess
         main(["fit", str(choke), "--model", "Rs + L1", *argv])
     assert info.value.code == 2
     assert message in capsys.readouterr().err
+
+
+def test_a_duplicate_element_is_pointed_at_its_second_whole_name():
+    from fitz_tool.circuit import Circuit
+    from fitz_tool.exceptions import ModelSyntaxError
+
+    with pytest.raises(ModelSyntaxError) as info:
+        Circuit.parse("L10 + L1 + L1")  # "L1" inside "L10" is another element
+    assert info.value.column == 12

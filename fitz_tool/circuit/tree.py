@@ -231,7 +231,9 @@ class Circuit:
         names = [e.name for e in _elements(tree)]
         duplicates = sorted({n for n in names if names.count(n) > 1})
         if duplicates:
-            column = expression.find(duplicates[0], expression.find(duplicates[0]) + 1) + 1
+            # the second whole-name occurrence ("L1" inside "L10" is another name)
+            column = [m.start() for m in re.finditer(rf"(?<![A-Za-z0-9_]){re.escape(duplicates[0])}"
+                                                        rf"(?![A-Za-z0-9_])", expression)][1] + 1
             raise ModelSyntaxError(f"element {duplicates[0]!r} appears twice", expression, column)
         return cls(_to_text(tree), tree)
 
