@@ -227,3 +227,31 @@ def test_an_input_that_moves_a_value_past_first_order_is_named_and_the_monte_car
     assert rs.monte_carlo.low > -0.05 * rs.value
     assert rs.monte_carlo.interval_ratio < 0.85 and "narrower" in rs.monte_carlo.note
     assert checked.parameters["L1"].monte_carlo.agrees
+
+
+def test_a_common_gain_and_phase_error_passes_open_short_unchanged_and_cancels_with_a_load():
+    # Why the limits are stated for the corrected impedance (fitz_tool.budget.inputs): a complex factor k
+    # common to the part and the standards gives (k Zm - k Zs) / (1 - (k Zm - k Zs) / (k Zo - k Zs)) =
+    # k Z_dut for open/short, and cancels in Z_std OS(Zm) / OS(Zl) (algebra of the correction formulas,
+    # common practice, no source).
+    from fitz_tool.corrections import compensate_fixture
+
+    f = np.geomspace(1e4, 1e7, 12)
+    w = 2 * np.pi * f
+    zs, yo = 0.02 + 1j * w * 5e-9, 1j * w * 2e-12            # fixture: series 20 mohm + 5 nH, shunt 2 pF
+    z_dut = Circuit.parse("Rs + L1").impedance(f, {"Rs": 0.05, "L1": 22e-6})
+
+    def through_fixture(z):
+        return zs + 1 / (yo + 1 / z)
+
+    k = (1 + 0.004) * np.exp(1j * math.radians(0.2))
+
+    def measured(z):
+        return Measurement(f, k * z)
+
+    m, z_open, z_short = measured(through_fixture(z_dut)), measured(zs + 1 / yo), measured(zs)
+    z_load = measured(through_fixture(np.full(f.size, 50.0 + 0j)))
+    open_short = compensate_fixture(m, open=z_open, short=z_short).impedance
+    assert open_short == pytest.approx(k * z_dut, rel=1e-9)
+    with_load = compensate_fixture(m, open=z_open, short=z_short, load=z_load, load_value=50.0).impedance
+    assert with_load == pytest.approx(z_dut, rel=1e-9)
