@@ -122,7 +122,8 @@ class BudgetEntry:
 class Budget:
     """Uncertainty budget of a fit: one entry per fitted parameter and per design value.
 
-    Design value names are ``"SRF"`` (``"SRF 1"``, ``"SRF 2"`` when there are several) and
+    Design value names are ``"SRF"`` (``"SRF 1"``, ``"SRF 2"`` when there are several), ``"Q at SRF"`` (the
+    resonator Q of each) and
     ``"NAME at FREQ"`` (e.g. ``"ESR at 100 kHz"``) for the values at each operating frequency.
     """
 
@@ -159,11 +160,15 @@ def coverage_factor(nu_eff: float) -> float:
 
 
 def design_items(design: DesignValues) -> dict[str, DerivedValue]:
-    """Budget names of the design values: ``"SRF"`` (numbered when several) and ``"NAME at FREQ"``."""
+    """Budget names of the design values: ``"SRF"`` (numbered when several), its resonator Q ``"Q at SRF"``
+    and ``"NAME at FREQ"``."""
     items: dict[str, DerivedValue] = {}
     several = len(design.resonances) > 1
     for i, res in enumerate(design.resonances):
-        items[f"SRF {i + 1}" if several else "SRF"] = res.frequency
+        key = f"SRF {i + 1}" if several else "SRF"
+        items[key] = res.frequency
+        if getattr(res, "quality", None) is not None:
+            items[f"Q at {key}"] = res.quality
     for point in design.points:
         for name, value in point.values.items():
             items[f"{name} at {frequency_text(point.frequency)}"] = value

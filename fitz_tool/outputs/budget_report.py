@@ -11,7 +11,7 @@ import math
 from html import escape
 
 from ..budget.combination import COVERAGE_PROBABILITY, NOISE_KEY, Budget, BudgetEntry, Contribution
-from ..units import format_quantity, format_to_resolution
+from ..units import format_quantity, format_to_resolution, with_symbols
 
 __all__ = ["budget_lines", "budget_html", "budget_to_json", "NOISE_ONLY_LINE"]
 
@@ -91,6 +91,7 @@ def _headline(e: BudgetEntry) -> str:
 
 
 def _table(rows, header) -> list[str]:
+    rows = [tuple(with_symbols(c) for c in r) for r in rows]
     widths = [max(len(str(r[i])) for r in [header, *rows]) for i in range(len(header))]
     out = ["    " + "  ".join(f"{h:<{w}}" for h, w in zip(header, widths, strict=True)).rstrip(),
            "    " + "  ".join("-" * w for w in widths)]
@@ -135,7 +136,8 @@ def budget_html(budget: Budget) -> str:
             continue
         head = "".join(f"<th>{escape(h)}</th>" for h in HEADER)
         body = "".join("<tr>" + "".join((_NUM_TD if i else "<td>") + f"{escape(c)}</td>"
-                                        for i, c in enumerate(r)) + "</tr>" for r in _rows(e))
+                                        for i, c in enumerate(map(with_symbols, r))) + "</tr>"
+                       for r in _rows(e))
         parts.append(f"<table><tr>{head}</tr>{body}</table>")
         if e.note:
             parts.append(f"<p>Note: {escape(e.note)}.</p>")
