@@ -423,6 +423,7 @@ def _cmd_fit(args) -> int:
                                        *([args.accuracy_table] if args.accuracy_table else [])])
     if args.plot_dir and Path(args.plot_dir).exists() and not Path(args.plot_dir).is_dir():
         raise OutputError(f"--plot-dir {args.plot_dir}: is a file, not a folder; choose a folder name")
+    waveform, drive_inputs = _drive_waveform_from_args(args, "drive-")  # read before the fit: errors first
     measurement, inputs = load_from_args(args)
     if args.accuracy_table:
         inputs.append(args.accuracy_table)
@@ -452,9 +453,11 @@ def _cmd_fit(args) -> int:
         result = fit(measurement, circuit, **constraints)
     design = design_values(result, at)
     budget = uncertainty_budget(result, limits, at, monte_carlo=args.budget_mc)
-    from .drive import model_from_fit
+    drive = None
+    if waveform is not None:
+        from .drive import drive_response, model_from_fit
 
-    drive, drive_inputs = _drive_from_args(args, model_from_fit(result, budget), "drive-")
+        drive = drive_response(model_from_fit(result, budget), waveform, args.allow_extrapolation)
     inputs += drive_inputs
     record = run_record(args, inputs, __version__)
 
@@ -531,9 +534,9 @@ def _add_drive_source(group, prefix: str) -> None:
                        help="accept a drive with most of its AC content outside the fitted band")
 
 
-def _drive_from_args(args, model, prefix: str):
-    """(DriveResult, input files) for the drive options, or (None, []) when no drive was asked for."""
-    from .drive import drive_response, drive_waveform, read_waveform
+def _drive_waveform_from_args(args, prefix: str):
+    """(Waveform, input files) for the drive options, or (None, []) when no drive was asked for."""
+    from .drive import drive_waveform, read_waveform
 
     key = prefix.replace("-", "_")
     current, voltage = getattr(args, f"{key}current"), getattr(args, f"{key}voltage")
@@ -555,7 +558,7 @@ def _drive_from_args(args, model, prefix: str):
         from .drive import band_limited
 
         waveform = band_limited(waveform, parse_quantity(bandwidth, "Hz", f"--{prefix}bandwidth"))
-    return drive_response(model, waveform, args.allow_extrapolation), inputs
+    return waveform, inputs
 
 
 def _drive_figure_outputs(drive, stem: str, plot_dir: str) -> dict[str, bytes]:
@@ -574,7 +577,10 @@ def _cmd_drive(args) -> int:
     from .outputs.drive_report import drive_to_json, format_drive_report
 
     model = model_from_json(args.fit_json)
-    drive, inputs = _drive_from_args(args, model, "")
+    from .drive import drive_response
+
+    waveform, inputs = _drive_waveform_from_args(args, "")
+    drive = drive_response(model, waveform, args.allow_extrapolation)
     inputs = [args.fit_json, *inputs]
     outputs: dict[str, bytes | str] = {}
     if args.json:

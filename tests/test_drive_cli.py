@@ -1,6 +1,7 @@
 """The drive command and the fit command's drive options, end to end on a bundled sample."""
 
 import json
+import math
 
 import pytest
 
@@ -80,3 +81,17 @@ def test_fit_report_carries_the_drive_section(tmp_path):
     html = report.read_text()
     assert "Drive response" in html and "with stated limits" in html and "derating" in html
     assert html.count("data:image/png") >= 5
+
+
+def test_voltage_record_and_a_bad_drive_is_refused_before_the_fit(fit_json, tmp_path, capsys):
+    wave = tmp_path / "v.csv"
+    rows = [f"{k * 1e-8:.6g},{0.01 * math.sin(2 * math.pi * k / 100):.9g}" for k in range(100)]
+    wave.write_text("t (s),V(C_OUT3) (V)\n" + "\n".join(rows) + "\n")  # 10 mV peak sine at 1 MHz
+    assert main(["drive", str(fit_json), "--voltage", str(wave)]) == 0
+    text = capsys.readouterr().out
+    assert "Drive: voltage" in text and "set by the drive" in text
+    # a spec error stops `fit` before any fitting and writes nothing
+    out = tmp_path / "never.json"
+    assert main(["fit", SAMPLE, "--through", "shunt", "--model", "Rs + Ls + C1", "--drive", "sine:1A",
+                 "--json", str(out)]) == 2
+    assert "AMPLITUDE@FREQUENCY" in capsys.readouterr().err and not out.exists()

@@ -214,6 +214,7 @@ def _response(model: DriveModel, values: dict[str, float], s: _Setup, with_waves
 
     def summary(stats):
         low, high, mean, square = stats
+        mean = 0.0 if abs(mean) <= 1e-12 * (high - low) else mean  # rounding of a zero-mean curve
         rms = math.sqrt(max(square, 0.0))
         return [high - low, max(abs(low), abs(high)), rms, math.sqrt(max(square - mean * mean, 0.0)), mean]
 
