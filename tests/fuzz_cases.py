@@ -123,7 +123,8 @@ def run_case(case: Case, folder: Path) -> Outcome:
         os.environ.pop("FITZ_TOOL_DEBUG", None)
     seconds, cpu = time.perf_counter() - start, time.process_time() - cpu_start
     if not label:
-        lines = err.getvalue().splitlines()
+        # "wrote PATH" lines name the files written (cli._wrote); anything else on stderr is a defect
+        lines = [line for line in err.getvalue().splitlines() if not line.startswith("wrote ")]
         if code == 0:
             label = "ok" if not lines else "traceback"
             detail = err.getvalue()[-300:] if lines else ""
