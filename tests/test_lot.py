@@ -8,6 +8,7 @@ import math
 import pandas as pd
 import pytest
 
+from fitz_tool.cli import main
 from fitz_tool.lot import LotSettings, ResultStore, collect_files, run_lot, table_from_store
 from tests.lot_data import MODEL, NOMINAL_L, make_lot
 
@@ -95,14 +96,32 @@ def test_auto_chooses_one_model_for_the_lot(lot):
     assert not math.isnan(result.table["SRF"].iloc[0]) or "L1" in result.table or "Ls" in result.table
 
 
-def test_dask_local_cluster_gives_the_same_table_as_the_process_pool(lot):
+def test_dask_local_cluster_gives_the_same_table_as_the_process_pool(lot, tmp_path):
     distributed = pytest.importorskip("distributed")
     _, _, items, settings, result = lot
+    table = tmp_path / "dask.csv"
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=None) as cluster, distributed.Client(cluster) as client:
-        on_dask = run_lot(items, settings, executor=client)
+                                  dashboard_address=None) as cluster:
+        with distributed.Client(cluster) as client:
+            on_dask = run_lot(items, settings, executor=client)
+        # the command line's route: --scheduler ADDRESS (its own client, closed after the lot)
+        code = main(["lot", *(i.file for i in items[:4]), "--model", MODEL, "--spec", SPEC, "--table",
+                     str(table), "--store", str(tmp_path / "dask.sqlite"), "--scheduler",
+                     cluster.scheduler_address])
     assert on_dask.fitted == 34 and on_dask.n_errors == 2, set(on_dask.table["error"])
     pd.testing.assert_frame_equal(on_dask.table, result.table)
+    assert code == 0
+    from_cli = pd.read_csv(table)
+    expected = result.table.set_index("file").loc[from_cli["file"]]
+    assert list(from_cli["L1"]) == pytest.approx(list(expected["L1"]), rel=1e-12)
+    assert list(from_cli["spec_L1"]) == list(expected["spec_L1"])
+
+
+def test_progress_bar_counts_parts_on_stderr(lot, capsys):
+    _, _, items, settings, _ = lot
+    run_lot(items[:2], settings, workers=1, progress=True)
+    err = capsys.readouterr().err
+    assert "fitting" in err and "2/2" in err and "failed=0" in err
 
 
 def test_verdicts_use_the_budget_expanded_uncertainty(lot):

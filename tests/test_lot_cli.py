@@ -130,11 +130,28 @@ def test_compare_prints_differences_in_combined_uncertainties(tmp_path, capsys):
     rng = np.random.default_rng(8)
     a = write_part(tmp_path / "a", impedance(22e-6, 0.05) * (1 + 1e-3 * rng.standard_normal(21)), 0)
     b = write_part(tmp_path / "b", impedance(24.2e-6, 0.05) * (1 + 1e-3 * rng.standard_normal(21)), 1)
-    out = tmp_path / "diff.csv"
-    assert main(["compare", str(a), str(b), "--model", MODEL, "--table", str(out)]) == 0
+    out, report = tmp_path / "diff.csv", tmp_path / "compare.html"
+    argv = ["compare", str(a), str(b), "--model", MODEL, "--table", str(out), "--report", str(report)]
+    assert main(argv) == 0
+    assert "Measured |Z| and phase of every part" in report.read_text()
     printed = capsys.readouterr().out
     assert "b - a" in printed
     assert re.search(r"^ *L1 .*\(\+(9\.9\d|10\.0\d) %", printed, flags=re.MULTILINE)
     diff = pd.read_csv(out).set_index("quantity")
     assert diff.loc["L1", "b-a_rel"] == pytest.approx(0.10, abs=0.005)
     assert main(["compare", str(a), "--model", MODEL]) == 2
+
+
+@pytest.mark.parametrize("manifest, message", [
+    ("part,bias_A\nC1,0\n", "no 'file' column"),
+    ("file,part\n,C1\n", "row 2: column 'file' is empty"),
+    ("file,part\na.csv,C1\na.csv,C2\n", "listed twice"),
+    ("file,part\n", "lists no file"),
+])
+def test_bad_manifests_are_refused_naming_the_row(tmp_path, capsys, manifest, message):
+    path = tmp_path / "manifest.csv"
+    path.write_text(manifest, encoding="utf-8")
+    assert main(["lot", "--manifest", str(path), "--model", MODEL, "--table", str(tmp_path / "t.csv")]) == 2
+    err = capsys.readouterr().err
+    assert message in err and str(path) in err
+    assert not (tmp_path / "t.csv").exists()
