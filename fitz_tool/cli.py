@@ -617,15 +617,16 @@ def _lot_settings(args, model: str):
     from .lot.job import BUDGET_FIELDS, READING_FIELDS
 
     budget_inputs_from_args(args)  # refuse bad accuracy options before any work
+    if args.budget_mc:
+        raise InputError("--budget-mc: the Monte Carlo check of the budget is for one part (fit); a lot uses "
+                         "the first-order budget")
 
     at = {}
     for text in args.at:
         label = text.strip().removesuffix("Hz")
         at[label] = parse_quantity(text, "Hz", "--at")
     return LotSettings(model=model, reading={k: getattr(args, k) for k in READING_FIELDS},
-                       fixed=_parse_named_values(args.fix, "--fix"),
-                       guesses=_parse_named_values(args.guess, "--guess"), bounds=_parse_bounds(args.bound),
-                       intervals=args.intervals, at=at, specs=tuple(args.spec),
+                       **_constraints(args), at=at, specs=tuple(args.spec),
                        per_file_model=getattr(args, "per_file_model", False),
                        budget={k: getattr(args, k) for k in BUDGET_FIELDS})
 

@@ -69,7 +69,7 @@ def _stats_rows(result: LotResult, stats: LotStats) -> list[tuple[str, ...]]:
     units = quantity_units(result)
     return [(q.name, str(q.count), _fmt(q.mean, units.get(q.name, "")), _fmt(q.std, units.get(q.name, "")),
              _fmt(q.minimum, units.get(q.name, "")), _fmt(q.maximum, units.get(q.name, "")))
-            for q in stats.quantities]
+            for q in stats.quantities if q.count]
 
 
 def _spec_rows(result: LotResult, stats: LotStats) -> list[tuple[str, ...]]:
@@ -92,6 +92,10 @@ def format_lot_summary(result: LotResult, stats: LotStats) -> str:
              f"Model: {model}", f"  why: {result.model_note}"]
     lines += ["", "Statistics over the parts with a result:"] + _text_table(_stats_rows(result, stats),
                                                                            _STATS_HEADER)
+    empty = [q.name for q in stats.quantities if not q.count]
+    if empty:
+        lines.append(f"  no value in any part: {', '.join(empty)}"
+                     + (" (SRF: no self-resonance inside the sweep)" if "SRF" in empty else ""))
     if stats.specs:
         lines += ["", "Spec limits and verdicts:"]
         lines += _text_table(_spec_rows(result, stats), _SPEC_HEADER)
