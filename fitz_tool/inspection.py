@@ -19,10 +19,12 @@ import pandas as pd
 from .exceptions import InputError
 from .kramers_kronig import KramersKronigResult, lin_kk
 from .measurement import Measurement
+from .reflection import ReflectionSummary, reflection_summary
 from .units import format_quantity, with_symbols
 
 __all__ = ["RESISTIVE_DEG", "Band", "Resonance", "InspectionSummary", "summarize", "format_summary",
-           "measurement_table", "character_sentence", "kramers_kronig_sentence"]
+           "measurement_table", "character_sentence", "kramers_kronig_sentence",
+           "kramers_kronig_advice"]
 
 #: Phase (deg) within which a point counts as resistive.
 RESISTIVE_DEG = 10.0
@@ -69,6 +71,8 @@ class InspectionSummary:
     resonances: tuple[Resonance, ...]
     kramers_kronig: KramersKronigResult | None = None
     kramers_kronig_skipped: str = ""
+    reflection: ReflectionSummary | None = None
+    kramers_kronig_advice: str = ""
 
 
 def _classes(phase_deg: np.ndarray) -> np.ndarray:
@@ -130,10 +134,12 @@ def summarize(measurement: Measurement) -> InspectionSummary:
         kk, skipped = lin_kk(measurement), ""
     except InputError as error:
         kk, skipped = None, str(error)
+    reflection = reflection_summary(measurement)
     return InspectionSummary(points=len(measurement), f_min=float(f[0]), f_max=float(f[-1]),
                              z_min=float(mag[low]), f_at_z_min=float(f[low]), z_max=float(mag[high]),
                              f_at_z_max=float(f[high]), bands=_bands(f, cls), resonances=tuple(resonances),
-                             kramers_kronig=kk, kramers_kronig_skipped=skipped)
+                             kramers_kronig=kk, kramers_kronig_skipped=skipped, reflection=reflection,
+                             kramers_kronig_advice=kramers_kronig_advice(kk, reflection, len(resonances)))
 
 
 def character_sentence(summary: InspectionSummary) -> str:
@@ -175,6 +181,30 @@ def character_sentence(summary: InspectionSummary) -> str:
     return ", ".join(parts)
 
 
+def kramers_kronig_advice(kk: KramersKronigResult | None, reflection: ReflectionSummary | None,
+                          resonances: int) -> str:
+    """For a Lin-KK test that failed: is the test's basis too small for this response, or are the data
+    inconsistent? ``""`` when the test passed or did not run.
+
+    The Lin-KK elements R / (1 + j w tau) have real poles; fitted to Z or to Y they follow one resonance
+    (a series one in Z, a parallel one in Y) but not a series and a parallel one together, and nothing
+    without loss. So excess residuals say little when the data are lossless (Foster's theorem is checked
+    instead, ``reflection.py``) or hold two or more resonances; otherwise they point at the measurement.
+    """
+    if kk is None or kk.consistent:
+        return ""
+    if reflection is not None and reflection.lossless:
+        verdict = ("consistent by Foster's reactance theorem" if reflection.foster_ok else
+                   "inconsistent: a lossless reflection that turns anticlockwise")
+        return (f"the test's basis is too small for this response (a lossless reflection has no loss for "
+                f"its elements to follow); {verdict}")
+    if resonances >= 2:
+        return (f"the test's basis is too small for this response ({resonances} resonances: its elements "
+                f"follow one, in Z or in Y); the residual is not evidence against the data")
+    return ("the data look inconsistent: check for channel delay, drift or fixture effects (ferrite beads "
+            "are hard for this check, so it may be the check's own limit)")
+
+
 def kramers_kronig_sentence(summary: InspectionSummary) -> str:
     """The Kramers-Kronig check as one sentence: the verdict and the residual against the noise."""
     kk = summary.kramers_kronig
@@ -184,8 +214,9 @@ def kramers_kronig_sentence(summary: InspectionSummary) -> str:
     noise = (" (" + f"{100 * kk.noise_level:#.2g}".rstrip(".") + " %)") if np.isfinite(kk.noise_level) else ""
     if kk.consistent:
         return f"consistent with a causal, linear part: residual {rms}, at the noise level{noise}"
-    return (f"residual {rms}, above the noise level{noise}: check for channel delay, drift or fixture "
-            f"effects (ferrite beads are hard for this check, so it may be the check's own limit)")
+    advice = summary.kramers_kronig_advice or kramers_kronig_advice(kk, summary.reflection,
+                                                                    len(summary.resonances))
+    return f"residual {rms}, above the noise level{noise}: {advice}"
 
 
 def format_summary(summary: InspectionSummary, measurement: Measurement, verbose: bool = False) -> str:
@@ -212,6 +243,8 @@ def format_summary(summary: InspectionSummary, measurement: Measurement, verbose
             lines.append(f"  {r.kind:<8} at {q(r.frequency, 'Hz')}, {peak} |Z| {q(r.magnitude, 'ohm')}")
     else:
         lines.append("apparent resonances: none in the measured range")
+    if summary.reflection is not None:
+        lines.append(f"S11       {summary.reflection.note}")
     lines.append(f"Kramers-Kronig (Lin-KK): {kramers_kronig_sentence(summary)}")
     if verbose and summary.kramers_kronig is not None:
         kk = summary.kramers_kronig

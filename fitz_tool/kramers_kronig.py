@@ -93,6 +93,8 @@ class KramersKronigResult:
     noise_level : float
         Relative noise per part (dimensionless) the residuals were judged against: from the measurement's
         sigmas when they are absolute, else estimated from point-to-point differences of the residuals.
+    figures : str
+        The figures of ``note`` without the verdict (residual RMS, limit, M, mu, representation).
     """
 
     n_elements: int
@@ -105,6 +107,7 @@ class KramersKronigResult:
     note: str
     representation: str = "impedance"
     noise_level: float = float("nan")
+    figures: str = ""
 
 
 @dataclass(frozen=True)
@@ -255,14 +258,16 @@ def lin_kk(measurement: Measurement, mu_threshold: float = 0.85,
     # Advisory, not a verdict on the part: a passive linear part is always Kramers-Kronig consistent, so
     # excess residuals point at the measurement (channel delay, drift, fixture) or at a response the
     # Lin-KK basis follows poorly (e.g. ferrite beads); the fit's residual panels tell which.
+    # (inspection.py words the advice: basis too small for this response, or data inconsistent)
     verdict = ("consistent" if consistent else
                "residuals above the noise (check for channel delay, drift or fixture effects; some parts, "
                "e.g. ferrite beads, are hard for the Lin-KK basis)")
-    note = (f"{verdict}: residual RMS {100 * rms:.3g} % of |Z| "
-            f"(limit {100 * limit:.3g} % = max({100 * RMS_FLOOR:g} %, {NOISE_FACTOR:g} x noise "
-            f"{100 * noise:.3g} % {noise_source}); M = {fit.n_elements}, mu = {fit.mu:.2f}, "
-            f"fitted as {representation}")
+    figures = (f"residual RMS {100 * rms:.3g} % of |Z| "
+               f"(limit {100 * limit:.3g} % = max({100 * RMS_FLOOR:g} %, {NOISE_FACTOR:g} x noise "
+               f"{100 * noise:.3g} % {noise_source}); M = {fit.n_elements}, mu = {fit.mu:.2f}, "
+               f"fitted as {representation}")
+    note = f"{verdict}: {figures}"
     max_residual = float(max(np.max(np.abs(real)), np.max(np.abs(imag))))
     return KramersKronigResult(n_elements=fit.n_elements, mu=fit.mu, residual_real=real, residual_imag=imag,
                                rms_residual=rms, max_residual=max_residual, consistent=consistent, note=note,
-                               representation=representation, noise_level=noise)
+                               representation=representation, noise_level=noise, figures=figures)
