@@ -10,8 +10,9 @@ no source):
   delay, so the unwrapped phase of S11 is a straight line in frequency. Here: lossless, and the phase
   within ``DELAY_TOLERANCE_DEG`` (RMS) of its least-squares line.
 * Foster's reactance theorem: the reactance of a lossless passive one-port rises with frequency, so S11
-  turns clockwise (its phase falls) at every step. A lossless file that turns the other way is not a
-  passive response (calibration, port extension). This replaces the Lin-KK test for lossless data, whose
+  turns clockwise (its phase falls) at every step. A lossless file that turns the other way by more than
+  three times the step noise (estimated from second differences) is not a passive response (calibration,
+  port extension). This replaces the Lin-KK test for lossless data, whose
   basis of R / (1 + j w tau) elements needs loss to follow.
 """
 
@@ -71,6 +72,19 @@ def _reference(measurement: Measurement) -> float | None:
     return float(match.group(1)) if match else None
 
 
+def _step_noise(phase: np.ndarray) -> float:
+    """Standard deviation (rad) of the noise in one phase step, from second differences.
+
+    For white phase noise sigma, a second difference has standard deviation sigma sqrt 6 and a step sigma
+    sqrt 2; the median absolute second difference is 0.6745 sigma sqrt 6 (common practice, no source).
+    Smooth curvature barely moves the median.
+    """
+    if phase.size < 4:
+        return 0.0
+    sigma = float(np.median(np.abs(np.diff(phase, 2)))) / (0.6745 * np.sqrt(6))
+    return sigma * np.sqrt(2)
+
+
 def reflection_summary(measurement: Measurement) -> ReflectionSummary | None:
     """S11 facts of a reflection measurement, or None for other forms (or a reference not known)."""
     z0 = _reference(measurement) if measurement.provenance.form == "touchstone_s11" else None
@@ -82,7 +96,7 @@ def reflection_summary(measurement: Measurement) -> ReflectionSummary | None:
     lossless = bool(np.all(loss < LOSSLESS_TOLERANCE))
     phase = np.unwrap(np.angle(s11))
     steps = np.diff(phase)
-    anticlockwise = int(np.sum(steps > 0))
+    anticlockwise = int(np.sum(steps > 3 * _step_noise(phase)))
     delay, termination = None, ""
     if lossless:
         slope, intercept = np.polyfit(f, phase, 1)
