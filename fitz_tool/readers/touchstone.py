@@ -390,8 +390,8 @@ def read_touchstone(path: str | Path, options=None) -> Measurement:
         ideal = {-1: "a short circuit (S11 = -1, Z = 0)", 1: "an open circuit (S11 = +1, Z infinite)"}
         for value, what in ideal.items():
             if network.nports == 1 and np.all(np.abs(s - value) < 1e-3):
-                raise InputError(f"{path}: the file is {what} at every point: a calibration standard, not "
-                                 f"a part with an impedance to fit")
+                raise InputError(f"{path}: no usable point: the file is {what} at every point, a standard,"
+                                 f" not a part with an impedance to fit")
         raise InputError(f"{path}: no usable point: every {field} value makes the conversion singular "
                          f"(check --through and that the part was connected)")
     if not np.all(usable):
