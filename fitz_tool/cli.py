@@ -429,6 +429,8 @@ def _cmd_fit(args) -> int:
         inputs.append(args.accuracy_table)
     selection = None
     if args.model.strip().lower() == "auto":
+        if args.jobs is not None and args.jobs < 1:
+            raise InputError(f"--jobs {args.jobs}: give at least 1")
         from .presets import default_candidates
 
         bar = _progress_bar(args, len(default_candidates()), "ranking models")
@@ -442,7 +444,7 @@ def _cmd_fit(args) -> int:
             started.append(expression)
 
         try:
-            selection = fit_auto(measurement, **constraints, progress=step)
+            selection = fit_auto(measurement, **constraints, jobs=args.jobs, progress=step)
         finally:
             if bar is not None:
                 bar.close()
@@ -777,6 +779,8 @@ def build_parser() -> argparse.ArgumentParser:
     model.add_argument("--intervals", choices=["flagged", "all", "none"], default="flagged",
                        help="68 %% profile-likelihood intervals: for parameters whose first-order error "
                             "is not trustworthy (default), for every parameter, or none")
+    model.add_argument("--jobs", type=int, default=None, metavar="N",
+                       help="processes for --model auto on large files (default: the core count)")
     _add_budget_options(fitp)
     out = fitp.add_argument_group("outputs")
     out.add_argument("--at", action="append", default=[], metavar="FREQ",

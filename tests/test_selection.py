@@ -78,3 +78,23 @@ def test_adequacy_names_the_problem():
     ok, why = is_adequate(selection.chosen)
     assert not ok and "systematic structure" in why
     assert "no candidate is adequate" in selection.reason
+
+
+def test_parallel_candidates_give_the_same_choice_as_serial():
+    # the same searches in a process pool and in this process must agree exactly (deterministic seeds)
+    from fitz_tool.circuit import Circuit
+    from fitz_tool.fitting import selection
+    from fitz_tool.measurement import Measurement
+
+    f = np.geomspace(1e3, 1e8, 2500)
+    truth = {"Rs": 0.05, "L1": 10e-6, "Cp": 5e-12}
+    rng = np.random.default_rng(4)
+    z = Circuit.parse("(Rs + L1) || Cp").impedance(f, truth) * np.exp(rng.normal(0, 1e-3, f.size))
+    m = Measurement(f, z)
+    candidates = ["Rs + L1", "(Rs + L1) || Cp", "(Rs + L1 || Rc) || Cp"]
+    assert len(m) >= selection.PARALLEL_POINTS
+    serial = selection.fit_auto(m, candidates, jobs=1, intervals="none")
+    pooled = selection.fit_auto(m, candidates, jobs=2, intervals="none")
+    assert [r.expression for r in pooled.ranking] == [r.expression for r in serial.ranking]
+    assert pooled.chosen.values == serial.chosen.values
+    assert serial.chosen.circuit.expression == "(Rs + L1) || Cp"

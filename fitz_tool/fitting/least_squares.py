@@ -34,7 +34,7 @@ from .resonances import resonance_intervals, resonance_starts
 from .scatter import FAR_ABOVE_SCATTER, scatter_sigma
 from .seeding import data_seed, global_search, refine_by_scans, search_ranges
 
-__all__ = ["fit", "BOUND_DECADES", "SCATTER_FLAG", "far_above_scatter"]
+__all__ = ["fit", "search", "judge", "Searched", "BOUND_DECADES", "SCATTER_FLAG", "far_above_scatter"]
 
 #: Opening words of the flag for residuals far above the data's own scatter.
 SCATTER_FLAG = "residuals far above the noise"
@@ -133,6 +133,14 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
     """
     if intervals not in INTERVAL_MODES:
         raise InputError(f"intervals={intervals!r}: use one of {', '.join(INTERVAL_MODES)}")
+    return judge(search(measurement, model, fixed=fixed, guesses=guesses, bounds=bounds), intervals)
+
+
+def search(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, float] | None = None,
+           guesses: Mapping[str, float] | None = None,
+           bounds: Mapping[str, tuple[float, float]] | None = None) -> Searched:
+    """The search half of :func:`fit` (same arguments but ``intervals``): the best local fit, not yet
+    judged. :func:`judge` turns it into a FitResult; model selection judges only the candidates in play."""
     circuit = model if isinstance(model, Circuit) else Circuit.parse(resolve_model(model))
     fixed, guesses, bounds = dict(fixed or {}), dict(guesses or {}), dict(bounds or {})
     for given, what in ((fixed, "fixed value"), (guesses, "guess"), (bounds, "bound")):
@@ -159,10 +167,34 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
     scale_covar = not measurement.sigma_absolute
     out, stage = _search(problem, x0, (lo, hi), (b_lo, b_hi), scale_covar,
                          np.array([n not in guesses for n in free]))
-    result = assess(problem, measurement, out, (b_lo, b_hi), scale_covar, stage, intervals=intervals,
-                    user_bounded=frozenset(bounds),
-                    refit=lambda x: local_fit(problem, x, b_lo, b_hi, scale_covar))
-    extra = list(circuit.notes)
+    return Searched(problem, measurement, out, (b_lo, b_hi), scale_covar, stage, frozenset(bounds))
+
+
+@dataclass(frozen=True)
+class Searched:
+    """A finished search, not yet judged: what :func:`judge` needs (internal coordinates)."""
+
+    problem: FitProblem
+    measurement: Measurement
+    out: LocalFit
+    bounds: tuple[np.ndarray, np.ndarray]
+    scale_covar: bool
+    stage: str
+    user_bounded: frozenset[str]
+
+    @property
+    def chi_square(self) -> float:
+        return self.out.chisqr
+
+
+def judge(searched: Searched, intervals: str = "flagged") -> FitResult:
+    """Judge a finished search: SI values, errors, profile intervals as ``intervals`` says, flags."""
+    s, (b_lo, b_hi) = searched, searched.bounds
+    problem = s.problem
+    result = assess(problem, s.measurement, s.out, s.bounds, s.scale_covar, s.stage, intervals=intervals,
+                    user_bounded=s.user_bounded,
+                    refit=lambda x: local_fit(problem, x, b_lo, b_hi, s.scale_covar))
+    extra = list(problem.circuit.notes)
     ratio = far_above_scatter(problem, result.chi_square, _scatter(problem))
     if ratio is not None:
         extra.append(f"{SCATTER_FLAG}: the residuals are {ratio:.0f} times the point-to-point scatter of the "

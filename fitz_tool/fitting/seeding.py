@@ -134,7 +134,7 @@ def refine_by_scans(objective: Objective, x0: np.ndarray, lower: np.ndarray, upp
 
 def global_search(objective: Objective, lower: np.ndarray, upper: np.ndarray,
                   bound_low: np.ndarray, bound_high: np.ndarray, starts: Sequence[np.ndarray] = (),
-                  samples: int | None = None, polish: int = 8, seed: int = 0) -> np.ndarray:
+                  samples: int | None = None, polish: int = 4, seed: int = 0) -> np.ndarray:
     """Best point found by polishing the best distinct points of a Sobol sample of the box.
 
     Parameters

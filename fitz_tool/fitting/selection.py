@@ -18,19 +18,25 @@ Rule (documented in ``ModelSelection.reason`` of every choice):
 from __future__ import annotations
 
 import math
+import os
 from collections.abc import Callable, Mapping, Sequence
 
+import numpy as np
+
 from ..circuit import Circuit
-from ..exceptions import FitError
+from ..exceptions import FitError, InputError
 from ..measurement import Measurement
 from ..presets import default_candidates, resolve_model
 from ..results import FitResult, ModelSelection, RankedModel
-from .least_squares import SCATTER_FLAG, fit
+from .assessment import INTERVAL_MODES
+from .least_squares import SCATTER_FLAG, Searched, judge, search
 
 __all__ = ["fit_auto", "is_adequate", "BIC_MARGIN"]
 
 #: BIC difference below which a simpler adequate model is preferred over the best-BIC one.
 BIC_MARGIN = 10.0
+#: Sweeps with at least this many points search the candidates in a process pool (when jobs > 1).
+PARALLEL_POINTS = 2000
 
 
 def _only(given: Mapping | None, circuit: Circuit) -> dict:
@@ -54,10 +60,47 @@ def is_adequate(result: FitResult) -> tuple[bool, str]:
     return not problems, "; ".join(problems)
 
 
+def _search_one(task: tuple) -> tuple[str, object]:
+    """Search one candidate (a top-level function, so a process pool can run it)."""
+    measurement, expression, fixed, guesses, bounds = task
+    circuit = Circuit.parse(expression)
+    try:
+        return expression, search(measurement, circuit, fixed=_only(fixed, circuit),
+                                  guesses=_only(guesses, circuit), bounds=_only(bounds, circuit))
+    except FitError as exc:
+        return expression, exc
+
+
+def _search_all(measurement: Measurement, expressions: list[str], constraints: tuple, jobs: int,
+                progress: Callable[[str], None] | None = None) -> list:
+    """(expression, Searched or FitError) per candidate, in a process pool when it pays; ``progress`` is
+    called with each candidate's expression as its search starts (serial) or ends (pool)."""
+    tasks = [(measurement, e, *constraints) for e in expressions]
+    report = progress or (lambda expression: None)
+    if jobs > 1 and len(expressions) > 1 and len(measurement) >= PARALLEL_POINTS:
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        context = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods()
+                                              else None)
+        with ProcessPoolExecutor(max_workers=min(jobs, len(tasks)), mp_context=context) as pool:
+            results = []
+            for item in pool.map(_search_one, tasks):
+                report(item[0])
+                results.append(item)
+            return results
+    results = []
+    for task in tasks:
+        report(task[1])
+        results.append(_search_one(task))
+    return results
+
+
 def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, *,
              fixed: Mapping[str, float] | None = None, guesses: Mapping[str, float] | None = None,
              bounds: Mapping[str, tuple[float, float]] | None = None,
-             intervals: str = "flagged", progress: Callable[[str], None] | None = None) -> ModelSelection:
+             intervals: str = "flagged", jobs: int | None = None,
+             progress: Callable[[str], None] | None = None) -> ModelSelection:
     """Fit every candidate and choose the simplest adequate model (rule in the module docstring).
 
     Parameters
@@ -69,30 +112,66 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
     fixed, guesses, bounds : mapping, optional
         As for :func:`fitz_tool.fitting.fit` (SI units); each applies to the candidates that have a
         parameter of that name and is ignored by the others.
+    intervals : {"flagged", "all", "none"}
+        Profile intervals as for :func:`fitz_tool.fit`, computed for the candidates in play (those the
+        rule could choose); the others are judged by first-order errors, and their note says so.
+    progress : callable, optional
+        Called with each candidate's expression as its search runs (e.g. a progress bar at the CLI).
+    jobs : int, optional
+        Processes for the candidates' searches (default: the core count); a pool is used only for sweeps of
+        at least ``PARALLEL_POINTS`` points, where it pays for its start.
 
     Returns
     -------
     ModelSelection
         The ranking (best BIC first; candidates that could not be fitted last) and the chosen fit.
     """
+    if intervals not in INTERVAL_MODES:
+        raise InputError(f"intervals={intervals!r}: use one of {', '.join(INTERVAL_MODES)}")
     expressions = list(dict.fromkeys(resolve_model(c) for c in (candidates or default_candidates())))
+    searched = _search_all(measurement, expressions, (fixed, guesses, bounds), jobs or os.cpu_count() or 1,
+                           progress)
     ranked: list[RankedModel] = []
-    for expression in expressions:
-        if progress is not None:  # optional callback, e.g. a progress bar at the CLI
-            progress(expression)
-        circuit = Circuit.parse(expression)
-        try:
-            result = fit(measurement, circuit, fixed=_only(fixed, circuit), guesses=_only(guesses, circuit),
-                         bounds=_only(bounds, circuit), intervals=intervals)
-        except FitError as exc:
-            ranked.append(RankedModel(expression, None, math.inf, False, f"not fitted: {exc}"))
+    done: dict[str, Searched] = {}
+    for expression, found in searched:
+        if isinstance(found, FitError):
+            ranked.append(RankedModel(expression, None, math.inf, False, f"not fitted: {found}"))
             continue
-        adequate, why = is_adequate(result)
-        ranked.append(RankedModel(expression, result, result.bic, adequate, why))
+        done[expression] = found
+        quick = judge(found, "none")
+        adequate, why = is_adequate(quick)
+        ranked.append(RankedModel(expression, quick, quick.bic, adequate, why))
     ranked.sort(key=lambda r: (r.bic, r.result.n_free if r.result else 0))
-    fitted = [r for r in ranked if r.result is not None]
-    if not fitted:
+    if not done:
         raise FitError("no candidate model could be fitted: " + "; ".join(r.note for r in ranked))
+    if intervals != "none":
+        ranked = _judge_in_play(ranked, done, intervals)
+    return _choose(ranked)
+
+
+def _judge_in_play(ranked: list[RankedModel], done: dict, intervals: str) -> list[RankedModel]:
+    """Judge with profile intervals every candidate the rule could choose: those within BIC_MARGIN of the
+    best BIC, then further ones in BIC order until one is adequate. The others keep first-order judging."""
+    best_bic = ranked[0].bic
+    out, settled = [], False
+    for r in ranked:
+        in_play = r.result is not None and (r.bic <= best_bic + BIC_MARGIN or not settled)
+        if in_play:
+            full = judge(done[r.expression], intervals)
+            adequate, why = is_adequate(full)
+            r = RankedModel(r.expression, full, full.bic, adequate, why)
+            settled = settled or adequate
+        elif r.result is not None:
+            r = RankedModel(r.expression, r.result, r.bic, r.adequate,
+                            "; ".join(filter(None, [r.note, "judged by first-order errors only"])))
+        out.append(r)
+    out.sort(key=lambda r: (r.bic, r.result.n_free if r.result else 0))
+    return out
+
+
+def _choose(ranked: list[RankedModel]) -> ModelSelection:
+    """Apply the rule of the module docstring to a ranking (best BIC first)."""
+    fitted = [r for r in ranked if r.result is not None]
     best_bic = fitted[0].bic
     adequate = [r for r in fitted if r.adequate]
     close = [r for r in adequate if r.bic <= best_bic + BIC_MARGIN]
@@ -111,4 +190,24 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
         reason = "no candidate is adequate (see the notes of the ranking); chose the lowest BIC"
     ranked = [RankedModel(r.expression, r.result, r.bic, r.adequate,
                           "chosen" + (f"; {r.note}" if r.note else "")) if r is chosen else r for r in ranked]
-    return ModelSelection(ranking=tuple(ranked), chosen=chosen.result, reason=reason)
+    return ModelSelection(ranking=tuple(_mark_equivalent(ranked)), chosen=chosen.result, reason=reason)
+
+
+def _mark_equivalent(ranked: list[RankedModel]) -> list[RankedModel]:
+    """Note candidates that are the same fit in another form: equal BIC and equal model curves (within
+    1e-6 relative over the sweep), e.g. a topology and its equivalent rearrangement."""
+    out = list(ranked)
+    for i, a in enumerate(out):
+        if a.result is None:
+            continue
+        za = a.result.model_impedance()
+        for j in range(i):
+            b = out[j]
+            if b.result is None or abs(a.bic - b.bic) > 1e-6 * max(1.0, abs(b.bic)):
+                continue
+            if np.max(np.abs(za / b.result.model_impedance() - 1)) < 1e-6:
+                note = f"equivalent to {b.expression!r} (the same curve and BIC)"
+                out[i] = RankedModel(a.expression, a.result, a.bic, a.adequate,
+                                     "; ".join(filter(None, [a.note, note])))
+                break
+    return out
