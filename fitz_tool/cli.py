@@ -68,7 +68,7 @@ def _read_options(args):
         column_map=column_map,
         through=args.through,
         dbm_reference=(parse_quantity(args.dbm_reference, "ohm", "--dbm-reference")
-                       if args.dbm_reference else None),
+                       if getattr(args, "dbm_reference", None) else None),
     )
 
 
