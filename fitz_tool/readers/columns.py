@@ -32,12 +32,18 @@ from ..exceptions import InputError
 from .headers import LCR, HeaderInfo, parse_header
 from .lcr import LCR_FORMS
 
-__all__ = ["ROLES", "FORMS", "ColumnPlan", "plan_columns"]
+__all__ = ["ROLES", "FORMS", "UNCERTAINTY_ROLES", "ColumnPlan", "plan_columns"]
 
 ROLES: tuple[str, ...] = ("frequency", "v_amplitude", "v_phase", "i_amplitude", "i_phase", "z_magnitude",
                           "z_phase", "z_real", "z_imag", "ratio_magnitude", "ratio_phase",
                           "c_series", "l_series", "c_parallel", "l_parallel", "r_series", "r_parallel",
-                          "dissipation", "quality")
+                          "dissipation", "quality", "u_z_magnitude", "u_z_phase", "u_z_real", "u_z_imag")
+
+#: Stated standard-uncertainty (k = 1) roles each form can take, with the kind of header they match.
+UNCERTAINTY_ROLES: dict[str, dict[str, str]] = {
+    "z_polar": {"u_z_magnitude": "amplitude", "u_z_phase": "phase"},
+    "z_rect": {"u_z_real": "real", "u_z_imag": "imag"},
+}
 
 #: Forms in order of preference, with the roles each needs.
 FORMS: dict[str, tuple[str, ...]] = {
@@ -79,6 +85,8 @@ class ColumnPlan:
 
 def _roles(info: HeaderInfo) -> tuple[str, ...]:
     """Roles a column could fill (a resistance can be the real part of Z or an LCR meter's Rs)."""
+    if info.uncertainty:
+        return ()
     if info.kind == "frequency":
         return ("frequency",)
     if info.kind in LCR.values():
@@ -187,6 +195,40 @@ def _fits(role: str, info: HeaderInfo) -> bool:
     return info.subject in (None, subject) and info.kind in (None, kind)
 
 
+def _uncertainty_columns(form: str, mapped: dict[str, HeaderInfo], stated: list[HeaderInfo], used: set[int],
+                         steps: list[str], where: str) -> dict[str, HeaderInfo]:
+    """The stated standard-uncertainty columns of the form (both of a pair, or none)."""
+    wanted = UNCERTAINTY_ROLES.get(form, {})
+    extra = [r for r in mapped if r.startswith("u_") and r not in wanted]
+    if extra:
+        allowed = " and ".join(" / ".join(roles) for roles in UNCERTAINTY_ROLES.values())
+        raise InputError(f"{where}: --map {extra[0]}=...: this file is read as {form}, which takes the "
+                         f"uncertainty roles {' / '.join(wanted) or 'none'}; uncertainty columns are read "
+                         f"beside |Z| and phase or R and X ({allowed})")
+    found: dict[str, HeaderInfo] = {}
+    for role, kind in wanted.items():
+        if role in mapped:
+            found[role] = mapped[role]
+            continue
+        hits = [i for i in stated
+                if i.kind == kind and i.subject in (None, "impedance") and i.index not in used]
+        if len(hits) > 1:
+            names = " and ".join(repr(i.header) for i in hits)
+            raise InputError(f"{where}: columns {names} could both be {role}; name the one to use, e.g. "
+                             f"--map {role}='{hits[0].header}'")
+        if hits:
+            found[role] = hits[0]
+    if len(found) == 1:
+        (role, info), = found.items()
+        other = next(r for r in wanted if r not in found)
+        raise InputError(f"{where}: column {info.header!r} states the uncertainty of one part only ({role}); "
+                         f"give the other as well (--map {other}=HEADER) or leave both out")
+    for role, info in found.items():
+        steps.append(f"column {info.header!r} is {role}: a stated standard uncertainty (k = 1)"
+                     f"{' (--map)' if role in mapped else ''}")
+    return found
+
+
 def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: str) -> ColumnPlan:
     """Choose the form and the column for each of its roles.
 
@@ -218,6 +260,8 @@ def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: s
         steps.append(f"column {headers[index]!r} is {role} (--map)")
     taken = {m.index for m in mapped.values()}
     warnings: list[str] = []
+    stated = [i for i in infos if i.uncertainty]
+    infos = [dataclasses.replace(i, kind=None, subject=None) if i.uncertainty else i for i in infos]
     infos = _bare_magnitude(infos, taken, steps, warnings)
     infos = _resolve_phases(infos, taken, steps)
     candidates: dict[str, list[HeaderInfo]] = {role: [info] for role, info in mapped.items()}
@@ -243,4 +287,6 @@ def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: s
     if len(complete) > 1:
         steps.append(f"the file also holds the form(s) {', '.join(complete[1:])}; used {form}")
     columns = {role: candidates[role][0] for role in FORMS[form]}
+    columns.update(_uncertainty_columns(form, mapped, stated, {c.index for c in columns.values()} | taken,
+                                        steps, where))
     return ColumnPlan(form=form, columns=columns, steps=tuple(steps), warnings=tuple(warnings))

@@ -35,7 +35,7 @@ from .headers import HeaderInfo
 from .lcr import LCR_FORMS, lcr_to_impedance
 
 __all__ = ["AMPLITUDE_ROLES", "VOLTAGE_BASES", "unit_label", "understood", "refuse_unknown_unit",
-           "convert_columns", "build_impedance"]
+           "convert_columns", "build_impedance", "stated_sigmas"]
 
 #: Roles whose values are magnitudes (never negative).
 AMPLITUDE_ROLES = ("v_amplitude", "i_amplitude", "z_magnitude", "ratio_magnitude")
@@ -44,10 +44,12 @@ _SI = {"frequency": ("Hz", "rad/s"), "v_amplitude": ("V", "dBV", "dBm"),
        "z_magnitude": ("ohm", "dBohm"), "z_real": ("ohm",), "z_imag": ("ohm",), "ratio_magnitude": ("dB",),
        "c_series": ("F",),
        "c_parallel": ("F",), "l_series": ("H",), "l_parallel": ("H",), "r_series": ("ohm",),
-       "r_parallel": ("ohm",), "dissipation": ("", "%"), "quality": ("",)}
+       "r_parallel": ("ohm",), "dissipation": ("", "%"), "quality": ("",),
+       "u_z_magnitude": ("ohm", "%"), "u_z_real": ("ohm", "%"), "u_z_imag": ("ohm", "%")}
 _ASSUMED = {"frequency": "Hz", "v_amplitude": "V", "i_amplitude": "A", "z_magnitude": "ohm", "z_real": "ohm",
             "z_imag": "ohm", "ratio_magnitude": "V/V", "c_series": "F", "c_parallel": "F", "l_series": "H",
-            "l_parallel": "H", "r_series": "ohm", "r_parallel": "ohm", "dissipation": "1", "quality": "1"}
+            "l_parallel": "H", "r_series": "ohm", "r_parallel": "ohm", "dissipation": "1", "quality": "1",
+            "u_z_magnitude": "ohm", "u_z_real": "ohm", "u_z_imag": "ohm"}
 _CONVENTION_WORDS = {"peak": "peak", "rms": "rms", "pp": "peak-to-peak"}
 #: The units understood for each role, in words (for the refusal of a unit not understood).
 UNDERSTOOD = {
@@ -62,6 +64,8 @@ UNDERSTOOD = {
     "ratio_magnitude": "dB or V/V (no unit)",
     "F": "F with any SI prefix (pF, nF, uF)", "H": "H with any SI prefix (nH, uH, mH)",
     "dissipation": "no unit or %", "quality": "no unit",
+    "u_z_magnitude": "Ohm (any SI prefix) or % of |Z|", "u_z_real": "Ohm (any SI prefix) or % of R",
+    "u_z_imag": "Ohm (any SI prefix) or % of X",
 }
 #: Voltage-level bases: a current column in one of these is the voltage across a shunt.
 VOLTAGE_BASES = ("V", "dBV", "dBm")
@@ -71,6 +75,8 @@ def understood(role: str) -> str:
     """The units a role's column may state, in words."""
     if role.endswith("_phase"):
         return UNDERSTOOD["phase"]
+    if role in UNDERSTOOD:
+        return UNDERSTOOD[role]
     if role in ("z_real", "z_imag", "r_series", "r_parallel"):
         return UNDERSTOOD["ohm"]
     if role.startswith(("c_", "l_")):
@@ -271,3 +277,34 @@ def build_impedance(plan: ColumnPlan, values: Mapping[str, np.ndarray], shunt: f
     if shunt is not None and (form in ("z_polar", "z_rect", "ratio") or form in LCR_FORMS):
         warnings.append(f"--shunt {shunt:g} ignored: the file holds no shunt voltage ({form})")
     return z, form, steps, warnings
+
+
+def stated_sigmas(plan: ColumnPlan, values: Mapping[str, np.ndarray],
+                  z: np.ndarray) -> tuple[np.ndarray, np.ndarray, str] | None:
+    """Per-point standard uncertainties of ln|Z| and of the phase (rad) from stated uncertainty columns.
+
+    |Z| and phase: sigma_ln|Z| = u(|Z|) / |Z| (or the stated fraction), sigma_phase = u(phase).
+    R and X with independent u(R), u(X): first-order propagation to ln Z = ln|Z| + j phase,
+    sigma_ln|Z| = sqrt(R^2 u_R^2 + X^2 u_X^2) / |Z|^2 and sigma_phase = sqrt(X^2 u_R^2 + R^2 u_X^2) / |Z|^2
+    (GUM, JCGM 100:2008, 5.1.2); their correlation, zero when u_R = u_X, is not carried.
+
+    Returns None when the plan has no uncertainty columns; else (sigma_lnmag, sigma_phase, step in words).
+    """
+    columns = plan.columns
+    if "u_z_magnitude" in columns:
+        u_mag = values["u_z_magnitude"]
+        relative = u_mag if columns["u_z_magnitude"].base == "%" else u_mag / np.abs(z)
+        headers = (columns["u_z_magnitude"].header, columns["u_z_phase"].header)
+        sig = (relative, values["u_z_phase"].copy())
+    elif "u_z_real" in columns:
+        r, x = z.real, z.imag
+        u_r = values["u_z_real"] * (np.abs(r) if columns["u_z_real"].base == "%" else 1.0)
+        u_x = values["u_z_imag"] * (np.abs(x) if columns["u_z_imag"].base == "%" else 1.0)
+        mag2 = np.abs(z) ** 2
+        sig = (np.hypot(r * u_r, x * u_x) / mag2, np.hypot(x * u_r, r * u_x) / mag2)
+        headers = (columns["u_z_real"].header, columns["u_z_imag"].header)
+    else:
+        return None
+    step = (f"stated standard uncertainties (k = 1) from {headers[0]!r} and {headers[1]!r}, carried to ln|Z| "
+            f"and phase per point: absolute weights (uncertainties from them, chi-square tests the model)")
+    return sig[0], sig[1], step

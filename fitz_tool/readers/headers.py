@@ -97,6 +97,9 @@ class HeaderInfo:
     unit_known : bool
         False when the header states a unit fitz_tool does not understand (``unit_text`` holds it); a
         column used for a role is then refused, never read in an assumed unit.
+    uncertainty : bool
+        True for a stated standard uncertainty of the quantity the header names (``u(|Z|)``, ``|Z| sigma``,
+        ``Phase std``, ``u(R)``).
     """
 
     header: str
@@ -111,6 +114,7 @@ class HeaderInfo:
     negated: bool
     subject_from_unit: bool = False
     unit_known: bool = True
+    uncertainty: bool = False
 
 
 def parse_unit(text: str) -> tuple[str, str, str | None] | None:
@@ -334,6 +338,27 @@ def parse_vector_name(header: str) -> VectorName | None:
     return None
 
 
+_UNCERTAINTY_FUNCTION = re.compile(r"(?i)^\s*(?:u|σ|sigma|std|stdev|unc|uncertainty)\s*\((.+)\)\s*$")
+_UNCERTAINTY_WORD = re.compile(r"(?i)(?:^|(?<=[\s_\-]))(?:σ|sigma|std|stdev|stddev|std\.?\s*dev\.?|"
+                               r"uncertainty|unc)(?=$|[\s_\-])")
+
+
+def _uncertainty(name: str) -> tuple[str, bool]:
+    """Name without its uncertainty marker (``u(|Z|)``, ``|Z| sigma``, ``Phase std``) and whether it had one.
+
+    ``u`` counts only in function form (``u(R)``), since ``U`` is also a voltage.
+    """
+    match = _UNCERTAINTY_FUNCTION.match(name)
+    if match:
+        return match.group(1).strip(), True
+    words = re.split(r"[\s_\-]+", name.strip())
+    if len(words) >= 2:
+        stripped = _UNCERTAINTY_WORD.sub(" ", name).strip()
+        if stripped != name.strip() and stripped:
+            return stripped, True
+    return name, False
+
+
 def parse_header(header: str, index: int) -> HeaderInfo:
     """Read one header (see the module docstring); never raises, unknown parts come back as None."""
     vector = parse_vector_name(header)
@@ -346,8 +371,10 @@ def parse_header(header: str, index: int) -> HeaderInfo:
         clean = clean[1:-1].strip()
     name, unit_text, unit_known = _split_unit(clean)
     prefix, base, convention = parse_unit(unit_text) if unit_text and unit_known else ("", "", None)
+    name, uncertainty = _uncertainty(name)
     tokens, group, negated = _tokens(name)
     kind, subject, named_convention, from_unit = _classify(tokens, base)
     return HeaderInfo(header=header, index=index, unit_text=unit_text, prefix=prefix, base=base,
                       convention=convention or named_convention, kind=kind, subject=subject, group=group,
-                      negated=negated, subject_from_unit=from_unit, unit_known=unit_known)
+                      negated=negated, subject_from_unit=from_unit, unit_known=unit_known,
+                      uncertainty=uncertainty)

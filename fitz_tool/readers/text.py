@@ -36,6 +36,7 @@ from .forms import (
     build_impedance,
     convert_columns,
     refuse_unknown_unit,
+    stated_sigmas,
     understood,
     unit_label,
 )
@@ -43,13 +44,9 @@ from .headers import parse_header
 from .options import ReadOptions
 from .simulator import ComplexTable, find_simulator_table, vector_table
 from .status import check_status
+from .tail import describe, drop_rows, finish_rows
 
 __all__ = ["read_delimited"]
-
-
-def _lines(lines: np.ndarray, mask: np.ndarray) -> str:
-    picked = [str(n) for n in lines[mask][:5]]
-    return ", ".join(picked) + ("..." if int(mask.sum()) > 5 else "")
 
 
 def _refuse(values: dict[str, np.ndarray], plan, lines: np.ndarray, where: str) -> None:
@@ -64,31 +61,15 @@ def _refuse(values: dict[str, np.ndarray], plan, lines: np.ndarray, where: str) 
             header = plan.columns[role].header
             raise InputError(f"{where}: line {lines[k]}, column {header!r}: negative value "
                              f"for {what}; check the column (--map) or correct that row")
+    for role in UNCERTAINTY_NAMES:
+        if role in values:
+            bad = np.flatnonzero(~(values[role] > 0))
+            if bad.size:
+                raise InputError(f"{where}: line {lines[bad[0]]}, column {plan.columns[role].header!r}: a "
+                                 f"stated standard uncertainty must be above 0; correct that row")
 
 
-def _drop(keep: np.ndarray, mask: np.ndarray, reason: str, lines: np.ndarray, warnings: list[str]) -> None:
-    hit = mask & keep
-    if hit.any():
-        warnings.append(f"dropped {int(hit.sum())} row(s) {reason} (line(s) {_lines(lines, hit)})")
-        keep &= ~hit
-
-
-def _order_and_dedupe(f: np.ndarray, z: np.ndarray, lines: np.ndarray, steps: list[str],
-                      warnings: list[str], where: str) -> tuple[np.ndarray, np.ndarray]:
-    order = np.argsort(f, kind="stable")
-    if np.any(np.diff(f) < 0):
-        how = "descending" if np.all(np.diff(f) <= 0) else "no"
-        steps.append(f"sorted {f.size} rows by frequency (the file lists them in {how} order)")
-    f, z, lines = f[order], z[order], lines[order]
-    repeat = np.concatenate([[False], np.diff(f) == 0])
-    for k in np.flatnonzero(repeat):
-        if not np.isclose(z[k], z[k - 1], rtol=1e-12, atol=0.0):
-            raise InputError(f"{where}: lines {lines[k - 1]} and {lines[k]} are both at {f[k]:g} Hz with "
-                             f"different readings; delete one of them")
-    if repeat.any():
-        warnings.append(f"dropped {int(repeat.sum())} repeated row(s) with the same frequency and reading "
-                        f"(line(s) {_lines(lines, repeat)})")
-    return f[~repeat], z[~repeat]
+UNCERTAINTY_NAMES = ("u_z_magnitude", "u_z_phase", "u_z_real", "u_z_imag")
 
 
 def _from_simulator(table: ComplexTable, column_map: dict[str, str], shunt: float | None,
@@ -178,7 +159,7 @@ def read_delimited(path: str | Path, options: ReadOptions | None = None) -> Meas
     steps += status.steps
     keep = np.ones(lines.size, dtype=bool)
     warnings = [*plan.warnings, *status.warnings]
-    _drop(keep, status.bad, f"marked as not valid in the status column {status.status_header!r}", lines,
+    drop_rows(keep, status.bad, f"marked as not valid in the status column {status.status_header!r}", lines,
           warnings)
     numbers = {role: numeric_column(table, info.index, where, keep) for role, info in plan.columns.items()}
     values, convert_steps, convert_warnings = convert_columns(plan, numbers, where, options.dbm_reference)
@@ -188,27 +169,25 @@ def read_delimited(path: str | Path, options: ReadOptions | None = None) -> Meas
     missing = np.zeros(lines.size, dtype=bool)
     for array in values.values():
         missing |= ~np.isfinite(array)
-    _drop(keep, missing, "with missing or no-reading cells", lines, warnings)
+    drop_rows(keep, missing, "with missing or no-reading cells", lines, warnings)
     _refuse({r: v[keep] for r, v in values.items()}, plan, lines[keep], where)
-    _drop(keep, values["frequency"] == 0, "at 0 Hz (a DC point has no phase)", lines, warnings)
+    drop_rows(keep, values["frequency"] == 0, "at 0 Hz (a DC point has no phase)", lines, warnings)
     if "i_amplitude" in values:
-        _drop(keep, values["i_amplitude"] == 0, "with zero current (Z = V/I undefined)", lines, warnings)
-    z, form, z_steps, z_warnings = build_impedance(plan, {r: v[keep] for r, v in values.items()}, shunt,
-                                                   reference, where)
+        drop_rows(keep, values["i_amplitude"] == 0, "with zero current (Z = V/I undefined)", lines,
+                  warnings)
+    kept = {r: v[keep] for r, v in values.items()}
+    z_kept, form, z_steps, z_warnings = build_impedance(plan, kept, shunt, reference, where)
     steps += z_steps
     warnings += z_warnings
-    undefined = np.zeros(lines.size, dtype=bool)
-    undefined[np.flatnonzero(keep)[~np.isfinite(z)]] = True
-    _drop(keep, undefined, "where the impedance is undefined (a reading of 0 divides)", lines, warnings)
-    z = z[np.isfinite(z)]
-    frequency, kept_lines = values["frequency"][keep], lines[keep]
-    zero = np.zeros(lines.size, dtype=bool)
-    zero[np.flatnonzero(keep)[z == 0]] = True
-    _drop(keep, zero, "with |Z| = 0 (no phase, no logarithm)", lines, warnings)
-    z, frequency, kept_lines = z[z != 0], frequency[z != 0], kept_lines[z != 0]
-    if frequency.size == 0:
-        raise InputError(f"{where}: no usable row left ({'; '.join(warnings)})")
-    frequency, z = _order_and_dedupe(frequency, z, kept_lines, steps, warnings, where)
+    z = np.full(lines.size, np.nan, dtype=complex)
+    z[keep] = z_kept
+    sigmas = None
+    stated = stated_sigmas(plan, kept, z_kept)
+    if stated is not None:
+        sigmas = (np.full(lines.size, np.nan), np.full(lines.size, np.nan))
+        sigmas[0][keep], sigmas[1][keep] = stated[0], stated[1]
+        steps.append(stated[2])
+    frequency, z, sigmas = finish_rows(values["frequency"], z, lines, keep, steps, warnings, where, sigmas)
     provenance = Provenance(
         source=where,
         sha256=hashlib.sha256(raw).hexdigest(),
@@ -218,8 +197,11 @@ def read_delimited(path: str | Path, options: ReadOptions | None = None) -> Meas
         steps=tuple(steps),
         warnings=tuple(warnings),
         ignored_columns=status.ignored,
+        description=describe(form, shunt, reference, stated is not None),
     )
-    return Measurement(frequency=frequency, impedance=z, provenance=provenance)
+    return Measurement(frequency=frequency, impedance=z, provenance=provenance,
+                       sigma_lnmag=None if sigmas is None else sigmas[0],
+                       sigma_phase=None if sigmas is None else sigmas[1], sigma_absolute=sigmas is not None)
 
 
 def _simulator_measurement(table: ComplexTable, raw: bytes, path: Path, column_map: dict[str, str],
@@ -229,17 +211,13 @@ def _simulator_measurement(table: ComplexTable, raw: bytes, path: Path, column_m
     frequency, z, lines, columns, units, steps, warnings = _from_simulator(table, column_map, shunt,
                                                                            reference, path.name, where)
     keep = np.ones(lines.size, dtype=bool)
-    _drop(keep, np.isnan(frequency) | np.isnan(z), "with missing cells", lines, warnings)
+    drop_rows(keep, np.isnan(frequency) | np.isnan(z), "with missing cells", lines, warnings)
     negative = np.flatnonzero(keep & (frequency < 0))
     if negative.size:
         raise InputError(f"{where}: line {lines[negative[0]]}, column {table.frequency_header!r}: negative "
                          f"frequency; correct that row")
-    _drop(keep, frequency == 0, "at 0 Hz (a DC point has no phase)", lines, warnings)
-    _drop(keep, ~np.isfinite(z), "where the impedance is undefined (zero current)", lines, warnings)
-    _drop(keep, z == 0, "with |Z| = 0 (no phase, no logarithm)", lines, warnings)
-    if not keep.any():
-        raise InputError(f"{where}: no usable row left ({'; '.join(warnings)})")
-    f, z = _order_and_dedupe(frequency[keep], z[keep], lines[keep], steps, warnings, where)
+    f, z, _ = finish_rows(frequency, z, lines, keep, steps, warnings, where)
     provenance = Provenance(source=where, sha256=hashlib.sha256(raw).hexdigest(), form="simulator_complex",
-                            columns=columns, units=units, steps=tuple(steps), warnings=tuple(warnings))
+                            columns=columns, units=units, steps=tuple(steps), warnings=tuple(warnings),
+                            description=describe("simulator_complex", shunt, reference, False, columns))
     return Measurement(frequency=f, impedance=z, provenance=provenance)

@@ -1,0 +1,108 @@
+"""The shared tail of every text reader: drop the rows Z cannot use, sort, drop repeats, say what was read.
+
+Rules (each drop is counted in the warnings with its lines; nothing is silent):
+
+* frequency 0 Hz (a DC point has no phase): dropped;
+* impedance not finite (a reading of 0 divides): dropped;
+* |Z| = 0 (no phase, no logarithm): dropped;
+* rows out of order: sorted by frequency, recorded in the steps;
+* a repeated frequency with the same reading: dropped; with a different reading: an error naming both lines.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+
+from ..exceptions import InputError
+
+__all__ = ["drop_rows", "finish_rows", "describe", "FORM_WORDS"]
+
+#: Each input form in plain words, as the terminal and the report show it.
+FORM_WORDS: dict[str, str] = {
+    "z_polar": "impedance magnitude and phase",
+    "z_rect": "resistance and reactance (Z = R + jX)",
+    "v_i_phasors": "voltage across the part and current through it",
+    "v_shunt": "voltage across the part and across a {shunt} ohm shunt",
+    "ratio": "part voltage over the voltage across a {reference} ohm reference resistor",
+    "simulator_complex": "complex values from a circuit-simulator export",
+    "lcr_cs_rs": "LCR-meter readings: series capacitance and series resistance",
+    "lcr_cs_d": "LCR-meter readings: series capacitance and dissipation factor",
+    "lcr_cs_q": "LCR-meter readings: series capacitance and quality factor",
+    "lcr_ls_rs": "LCR-meter readings: series inductance and series resistance",
+    "lcr_ls_q": "LCR-meter readings: series inductance and quality factor",
+    "lcr_ls_d": "LCR-meter readings: series inductance and dissipation factor",
+    "lcr_cp_rp": "LCR-meter readings: parallel capacitance and parallel resistance",
+    "lcr_cp_d": "LCR-meter readings: parallel capacitance and dissipation factor",
+    "lcr_cp_q": "LCR-meter readings: parallel capacitance and quality factor",
+    "lcr_lp_rp": "LCR-meter readings: parallel inductance and parallel resistance",
+    "lcr_lp_q": "LCR-meter readings: parallel inductance and quality factor",
+    "lcr_lp_d": "LCR-meter readings: parallel inductance and dissipation factor",
+}
+
+
+def describe(form: str, shunt: float | None = None, reference: float | None = None, stated: bool = False,
+             columns: Mapping[str, str] | None = None) -> str:
+    """What was read, in plain words (``"voltage across the part and across a 0.1 ohm shunt"``)."""
+    text = FORM_WORDS.get(form, form).format(shunt=f"{shunt:g}" if shunt else "?",
+                                             reference=f"{reference:g}" if reference else "?")
+    if form == "simulator_complex" and columns:
+        if "z_complex" in columns:
+            text = f"complex impedance {columns['z_complex']} from a circuit-simulator export"
+        elif "v_complex" in columns and shunt and "i_complex" in columns:
+            text = (f"voltage {columns['v_complex']} across the part and {columns['i_complex']} across a "
+                    f"{shunt:g} ohm shunt, from a circuit-simulator export")
+        elif "v_complex" in columns:
+            text = (f"voltage {columns['v_complex']} across the part and current {columns.get('i_complex')}, "
+                    f"from a circuit-simulator export")
+    return text + (", with a stated standard uncertainty for each point" if stated else "")
+
+
+def _lines(lines: np.ndarray, mask: np.ndarray) -> str:
+    picked = [str(n) for n in lines[mask][:5]]
+    return ", ".join(picked) + ("..." if int(mask.sum()) > 5 else "")
+
+
+def drop_rows(keep: np.ndarray, mask: np.ndarray, reason: str, lines: np.ndarray,
+              warnings: list[str]) -> None:
+    """Clear ``keep`` where ``mask`` is set, counting the rows (and naming their lines) in the warnings."""
+    hit = mask & keep
+    if hit.any():
+        warnings.append(f"dropped {int(hit.sum())} row(s) {reason} (line(s) {_lines(lines, hit)})")
+        keep &= ~hit
+
+
+def finish_rows(frequency: np.ndarray, z: np.ndarray, lines: np.ndarray, keep: np.ndarray, steps: list[str],
+                warnings: list[str], where: str,
+                sigmas: tuple[np.ndarray, np.ndarray] | None = None
+                ) -> tuple[np.ndarray, np.ndarray, tuple[np.ndarray, np.ndarray] | None]:
+    """Drop, sort and de-duplicate rows (module rules); arrays are per file row, ``keep`` the rows still in.
+
+    Returns frequency (Hz, ascending, unique), Z (ohm) and the per-point sigmas, if any, in the same order.
+    """
+    keep = keep.copy()
+    drop_rows(keep, frequency == 0, "at 0 Hz (a DC point has no phase)", lines, warnings)
+    drop_rows(keep, ~np.isfinite(z), "where the impedance is undefined (a reading of 0 divides)", lines,
+              warnings)
+    drop_rows(keep, z == 0, "with |Z| = 0 (no phase, no logarithm)", lines, warnings)
+    if not keep.any():
+        raise InputError(f"{where}: no usable row left ({'; '.join(warnings)})")
+    f, z, lines = frequency[keep], z[keep], lines[keep]
+    extra = [s[keep] for s in sigmas] if sigmas is not None else []
+    order = np.argsort(f, kind="stable")
+    if np.any(np.diff(f) < 0):
+        how = "descending" if np.all(np.diff(f) <= 0) else "no"
+        steps.append(f"sorted {f.size} rows by frequency (the file lists them in {how} order)")
+    f, z, lines = f[order], z[order], lines[order]
+    extra = [s[order] for s in extra]
+    repeat = np.concatenate([[False], np.diff(f) == 0])
+    for k in np.flatnonzero(repeat):
+        if not np.isclose(z[k], z[k - 1], rtol=1e-12, atol=0.0):
+            raise InputError(f"{where}: lines {lines[k - 1]} and {lines[k]} are both at {f[k]:g} Hz with "
+                             f"different readings; delete one of them")
+    if repeat.any():
+        warnings.append(f"dropped {int(repeat.sum())} repeated row(s) with the same frequency and reading "
+                        f"(line(s) {_lines(lines, repeat)})")
+    out = None if sigmas is None else (extra[0][~repeat], extra[1][~repeat])
+    return f[~repeat], z[~repeat], out
