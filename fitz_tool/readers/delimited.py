@@ -231,7 +231,7 @@ def split_table(text: str, encoding: str, where: str, headerless: bool = False) 
         line = lines[k].strip()
         if not line or k < first:
             continue
-        cells = _cells(line, delimiter)
+        cells = _cells(line if delimiter == " " else lines[k], delimiter)  # a leading empty cell counts
         if line.startswith(_COMMENT) or (len(cells) == 1 and not _is_numeric(cells[0])):
             skipped.append(k + 1)
             continue
