@@ -37,9 +37,9 @@ def layouts(draw):
     f = 10.0 ** np.array(sorted(decades))
     if np.any(np.diff(f) / f[1:] < 1e-6):
         f = np.logspace(2, 7, n)
-    r, l, c = draw(st.floats(1e-3, 1e3)), draw(st.floats(1e-9, 1e-3)), draw(st.floats(1e-13, 1e-6))
+    r, ind, c = draw(st.floats(1e-3, 1e3)), draw(st.floats(1e-9, 1e-3)), draw(st.floats(1e-13, 1e-6))
     w = 2 * np.pi * f
-    z = 1 / (1 / (r + 1j * w * l) + 1j * w * c)
+    z = 1 / (1 / (r + 1j * w * ind) + 1j * w * c)
     form = draw(st.sampled_from(["z_polar", "z_rect", "v_i", "v_shunt"]))
     style = draw(st.sampled_from(["paren", "bracket", "space", "underscore"]))
     delimiter = draw(st.sampled_from([",", ";", "\t"]))
@@ -90,7 +90,8 @@ def layouts(draw):
                 unit = {"after": f"{prefix}{base} {conv}", "before": f"{conv} {prefix}{base}",
                         "nested": f"{prefix}{base}({conv})"}[where]
                 unit_style = "bracket" if where == "nested" else ("paren" if style == "underscore" else style)
-                columns.append((_header(name, unit, unit_style), abs(value) / PREFIX[prefix] / PEAK_PER[conv]))
+                amplitude = abs(value) / PREFIX[prefix] / PEAK_PER[conv]
+                columns.append((_header(name, unit, unit_style), amplitude))
             columns.append((_header(ph_name, phase_unit, phase_style), phase(np.angle(value))))
         if form == "v_shunt":
             options["shunt"] = shunt
