@@ -111,5 +111,5 @@ def test_description_in_words_and_in_the_inspect_output(tmp_path, capsys):
     m = read_measurement(path, ReadOptions(shunt=shunt))
     assert m.provenance.description == "voltage across the part and across a 0.1 ohm shunt"
     assert main(["inspect", str(path), "--shunt", "0.1"]) == 0
-    assert "across a 0.1 ohm shunt" in capsys.readouterr().out
+    assert "read as   voltage across the part and across a 0.1 " in capsys.readouterr().out
     assert not math.isnan(m.impedance[0].real)
