@@ -53,11 +53,24 @@ def parse_quantity(text: str, unit: str = "", what: str = "value") -> float:
     return float(number) * prefix_factor(prefix)
 
 
-def _eng(value: float, unit: str, places: int | None) -> str:
-    from matplotlib.ticker import EngFormatter  # display only: kept out of the import path of reading
+#: SI prefixes by power of ten, as engineering notation writes them (BIPM SI brochure, 9th edition).
+ENG_PREFIXES = {-30: "q", -27: "r", -24: "y", -21: "z", -18: "a", -15: "f", -12: "p", -9: "n", -6: "u",
+                -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T", 15: "P", 18: "E", 21: "Z", 24: "Y",
+                27: "R", 30: "Q"}
 
-    text = EngFormatter(unit=unit, places=places, sep=" ", usetex=False, useMathText=False)(value)
-    return text.replace("\u00b5", "u").replace("\u2212", "-")
+
+def _eng(value: float, unit: str, places: int | None) -> str:
+    """Engineering notation, ``"1.50 uH"``: the rule of matplotlib's ``EngFormatter`` (the test checks the two
+    agree), written here because importing matplotlib costs a command-line call more than the fit itself."""
+    fmt = "g" if places is None else f".{places:d}f"
+    magnitude = abs(value)
+    power = int(math.floor(math.log10(magnitude) / 3) * 3) if magnitude != 0 else 0
+    power = min(max(power, min(ENG_PREFIXES)), max(ENG_PREFIXES))
+    mantissa = (value if magnitude != 0 else 0.0) / 10.0**power
+    if abs(float(format(mantissa, fmt))) >= 1000 and power < max(ENG_PREFIXES):
+        mantissa, power = mantissa / 1000, power + 3  # 999.96 rounds to 1000: write 1.000 k
+    prefix = ENG_PREFIXES[power]
+    return f"{mantissa:{fmt}}" + (f" {prefix}{unit}" if unit or prefix else "")
 
 
 def format_relative(stderr: float, value: float) -> str:

@@ -71,3 +71,21 @@ def test_interval_ends_show_the_digits_of_the_interval_width():
 def test_spice_meg_suffix_ignores_case():
     # SPICE scale factors are case-insensitive, MEG = 1e6 (common practice, no source)
     assert parse_quantity("10Meg") == parse_quantity("10MEG") == pytest.approx(1e7)
+
+
+def test_engineering_notation_agrees_with_matplotlib_engformatter():
+    # reference: matplotlib.ticker.EngFormatter (a general-purpose library), over values of every decade
+    import numpy as np
+    from matplotlib.ticker import EngFormatter
+
+    from fitz_tool.units import _eng
+
+    rng = np.random.default_rng(0)
+    values = np.concatenate([10 ** rng.uniform(-28, 28, 400), -(10 ** rng.uniform(-20, 20, 100)),
+                             [0.0, 999.96, 999.9996e-6, 1e3, 1.0]])
+    for places in (None, 0, 1, 2, 4):
+        for unit in ("H", "", "ohm"):
+            reference = EngFormatter(unit=unit, places=places, sep=" ", usetex=False, useMathText=False)
+            for v in values:
+                expected = reference(float(v)).replace("\u00b5", "u").replace("\u2212", "-")
+                assert _eng(float(v), unit, places) == expected, (v, unit, places)
