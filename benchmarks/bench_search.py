@@ -6,7 +6,8 @@ Not part of the test suite. Prints:
 
 1. Hard shapes (no starting values, 20-30 points per decade, each draw on a grid shifted by a random
    fraction of a step so the resonance falls anywhere between samples, noise 0.1 % in ln|Z| and 1 mrad in
-   phase): a draw is a wrong minimum when a parameter is more than 6 Cramer-Rao sigmas from the truth, the
+   phase): a draw counts when a parameter is more than 6 Cramer-Rao sigmas from the truth, and is then
+   refitted from the truth to tell a wrong minimum from a tail of the estimator at the global minimum; the
    sigma from the Fisher information at the truth, ``sqrt(diag((J^T J)^-1)) * sigma`` (complex nonlinear least
    squares, common practice). Also RMS error / Cramer-Rao per parameter over the draws (target <= 1.15).
 2. Random parts (those of ``bench_fit.py``, 1 % noise): accurate when every parameter is within 5 % of the
@@ -91,7 +92,7 @@ def hard_shapes(draws: int, seed: int = 11) -> list[dict]:
     out = []
     for shape in SHAPES:
         rng = np.random.default_rng(seed)
-        wrong, errors, worst = 0, {n: [] for n in shape[2]}, 0.0
+        wrong, at_optimum, errors, worst = 0, 0, {n: [] for n in shape[2]}, 0.0
         for _ in range(draws):
             f = _sweep(shape, rng)
             m = _measurement(shape, f, rng)
@@ -99,11 +100,15 @@ def hard_shapes(draws: int, seed: int = 11) -> list[dict]:
             result = fit(m, shape[1], intervals="none")
             z_scores = {n: (result.values[n] - v) / sigma[n] for n, v in shape[2].items()}
             worst = max(worst, max(abs(s) for s in z_scores.values()))
-            wrong += any(abs(s) > 6 for s in z_scores.values())
+            if any(abs(s) > 6 for s in z_scores.values()):
+                wrong += 1
+                reference = fit(m, shape[1], guesses=shape[2], intervals="none")
+                at_optimum += result.chi_square <= reference.chi_square * (1 + 1e-6)
             for n, s in z_scores.items():
                 errors[n].append(s)
         rms = {n: float(np.sqrt(np.mean(np.square(e)))) for n, e in errors.items()}
-        out.append({"shape": shape[0], "draws": draws, "wrong": wrong, "worst_sigmas": worst,
+        out.append({"shape": shape[0], "draws": draws, "wrong": wrong, "at_optimum": at_optimum,
+                    "worst_sigmas": worst,
                     "rms_over_cr": rms})
     return out
 
@@ -257,8 +262,10 @@ def main() -> int:
     for row in hard_shapes(draws):
         before = f"   (baseline tree: {baseline[row['shape']]['wrong']}/{draws})" if baseline else ""
         rms = ", ".join(f"{n} {v:.2f}" for n, v in row["rms_over_cr"].items())
-        print(f"    {row['shape']:<32} wrong {row['wrong']}/{draws}{before}; worst {row['worst_sigmas']:.1f} "
-              f"sigma; RMS/CR {rms}")
+        tail = (f" ({row['at_optimum']} of them at the global minimum: a tail of the estimator, not a search "
+                "failure)") if row["wrong"] else ""
+        print(f"    {row['shape']:<32} > 6 sigma {row['wrong']}/{draws}{tail}{before}; worst "
+              f"{row['worst_sigmas']:.1f} sigma; RMS/CR {rms}")
     parts = 30 if args.quick else 300
     r = random_parts(parts)
     print(f"(2) random parts: every parameter within 5 % {r['accurate']}/{parts}; the others with the error "
