@@ -166,10 +166,14 @@ def budget_inputs_from_args(args):
 def _two_port(args) -> bool:
     """Whether the part and its standards are 2-port files to de-embed on the full matrices (scikit-rf is
     imported only when standards are given)."""
-    from .fixtures import two_port_method
+    return _compensation(args)[0] == "two-port"
 
-    standards = {"open": args.open, "short": args.short, "load": args.load}
-    return two_port_method(args.file, standards) == "two-port"
+
+def _compensation(args) -> tuple[str | None, str]:
+    """(method, reason) of the fixture compensation the files call for (``fixtures.compensation_choice``)."""
+    from .fixtures import compensation_choice
+
+    return compensation_choice(args.file, {"open": args.open, "short": args.short, "load": args.load})
 
 
 def load_from_args(args):
@@ -206,6 +210,8 @@ def load_from_args(args):
         load_value=_resistance(args.load_value, "--load-value"),
     )
     measurement = apply_corrections(measurement, corrections)
+    if standards:
+        measurement = measurement.replace(step=f"one-port compensation chosen: {_compensation(args)[1]}")
     return _noise_and_band(args, measurement), inputs
 
 

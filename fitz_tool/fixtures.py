@@ -52,7 +52,8 @@ from .measurement import Measurement, Provenance
 from .readers.touchstone import MAX_SENSITIVITY, NetworkFile, read_network
 from .standards import check_between, check_swapped
 
-__all__ = ["DECOUPLED_S21", "two_port_method", "deembed_network", "part_impedance", "deembed_two_port"]
+__all__ = ["DECOUPLED_S21", "two_port_method", "compensation_choice", "deembed_network", "part_impedance",
+           "deembed_two_port"]
 
 #: A 2-port standard whose median |S21| is below this passes no signal: a pad dummy (open or short to ground).
 DECOUPLED_S21 = 0.5
@@ -65,7 +66,12 @@ def _median_s21(read: NetworkFile) -> float:
 
 
 def two_port_method(part: str | Path, standards: dict[str, str | Path | None]) -> str | None:
-    """Which compensation the files call for: ``"two-port"``, ``"one-port"`` or None (no standard given).
+    """Which compensation the files call for: ``"two-port"``, ``"one-port"`` or None (no standard given)."""
+    return compensation_choice(part, standards)[0]
+
+
+def compensation_choice(part: str | Path, standards: dict[str, str | Path | None]) -> tuple[str | None, str]:
+    """Which compensation the files call for, and why: (``"two-port"``, ``"one-port"`` or None, reason).
 
     Parameters
     ----------
@@ -82,16 +88,22 @@ def two_port_method(part: str | Path, standards: dict[str, str | Path | None]) -
     """
     given = {role: Path(p) for role, p in standards.items() if p}
     if not given:
-        return None
+        return None, ""
     is_s2p = Path(part).suffix.lower() == ".s2p"
     for role, path in given.items():
         if (path.suffix.lower() == ".s2p") != is_s2p:
             raise InputError(f"{path}: the {role} standard is a {path.suffix} file but the part {part} is a "
                              f"{Path(part).suffix} file; measure the standards the same way as the part")
-    if not is_s2p or "load" in given:
-        return "one-port"
-    decoupled = all(_median_s21(read_network(p)) < DECOUPLED_S21 for p in given.values())
-    return "two-port" if decoupled else "one-port"
+    if not is_s2p:
+        return "one-port", "the part and its standards are one-port files"
+    if "load" in given:
+        return "one-port", "a load standard is given (a one-port open/short/load on the through impedance)"
+    medians = {role: _median_s21(read_network(p)) for role, p in given.items()}
+    text = ", ".join(f"{role} {m:.2g}" for role, m in medians.items())
+    if all(m < DECOUPLED_S21 for m in medians.values()):
+        return "two-port", f"the standards pass no signal (median |S21|: {text}): pad dummies"
+    return "one-port", (f"a standard passes signal (median |S21|: {text}): through-fixture standards, each "
+                        f"converted to the through impedance")
 
 
 def _norm(matrices: np.ndarray) -> np.ndarray:

@@ -5,6 +5,7 @@ Outside references: scikit-rf's bundled example files ``ind.s2p`` (a 1 nH induct
 simulated fixtures are scikit-rf network cascades.
 """
 
+import json
 from pathlib import Path
 
 import numpy as np
@@ -156,3 +157,25 @@ def test_a_part_outside_its_standards_is_refused_or_counted():
     part[:60] = 2e4  # half the band above the open: standards from another fixture
     with pytest.raises(InputError, match="not between the open and short standards at 60 of 120 points"):
         apply_corrections(m(part, "p"), Corrections(open=m(z_open, "o"), short=m(z_short, "s")))
+
+
+def test_through_fixture_standards_take_the_one_port_path_and_say_so(tmp_path, capsys):
+    # A series-through fixture: 0.5 nH leads either side; open = part removed, short = part replaced by a
+    # through. The short passes signal, so each file becomes one series impedance and the one-port formula
+    # removes the leads (series-through relation and open/short: common practice, no source).
+    lead = MED.inductor(0.5e-9)
+    part = MED.resistor(PART["Rs"] + 1j * W * PART["L1"])
+    files = {}
+    for name, middle in (("dut", part), ("open", MED.resistor(1e6)), ("short", MED.resistor(1e-9))):
+        path = tmp_path / f"{name}.s2p"
+        (lead ** middle ** lead).write_touchstone(str(path.with_suffix("")), form="ri")
+        files[name] = str(path)
+    assert two_port_method(files["dut"], {"open": files["open"], "short": files["short"]}) == "one-port"
+    out = tmp_path / "fit.json"
+    code = main(["fit", files["dut"], "--through", "series", "--open", files["open"], "--short",
+                 files["short"], "--model", "Rs + L1", "--json", str(out)])
+    assert code == 0, capsys.readouterr().err
+    text = out.read_text()
+    assert "one-port compensation chosen: a standard passes signal" in text
+    value = json.loads(text)["parameters"]["L1"]["value"]
+    assert value == pytest.approx(PART["L1"], rel=1e-3)  # leads removed (scikit-rf cascade)
