@@ -37,7 +37,9 @@ def add_reader_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--map", action="append", default=[], metavar="ROLE=HEADER",
                        help="name the column for a role (repeatable), e.g. --map frequency='Freq (kHz)'; "
                             "a column may be given by position as #N; roles include frequency, z_magnitude, "
-                            "z_phase, z_real, z_imag, z_complex, v_amplitude, v_phase, i_amplitude, i_phase")
+                            "z_phase, z_real, z_imag, z_complex, v_amplitude, v_phase, i_amplitude, i_phase; "
+                            "stated uncertainties u_z_magnitude, u_z_phase, u_z_real, u_z_imag; status (a "
+                            "status column whose bad words drop rows)")
     group.add_argument("--shunt", metavar="OHMS", help="series shunt resistance when current is a voltage")
     group.add_argument("--reference", metavar="OHMS",
                        help="reference resistor for a transfer-ratio file (part voltage / reference voltage)")

@@ -20,7 +20,9 @@ class ReadOptions:
     reference : float or None
         Reference resistance in ohm of a transfer-ratio file (Z = R_ref * V_part / V_ref).
     column_map : mapping of str to str
-        Role -> header (or ``#N``, the N-th column) overriding header recognition.
+        Role -> header (or ``#N``, the N-th column) overriding header recognition; besides the value roles,
+        ``u_z_magnitude``/``u_z_phase``/``u_z_real``/``u_z_imag`` (stated standard uncertainties) and
+        ``status`` (the status column).
     through : str or None
         ``"shunt"`` or ``"series"``: how the part sits in a ``.s2p`` measurement (Touchstone only).
     dbm_reference : float or None
