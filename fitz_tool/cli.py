@@ -499,6 +499,12 @@ def _cmd_fit(args) -> int:
         for key, figure in figures.items():
             for fmt in ("png", "svg"):
                 outputs[str(Path(args.plot_dir) / f"{stem}_{key}.{fmt}")] = _figure_bytes(figure, fmt)
+        from .outputs.plots import summary_figure
+        from .outputs.wording import verdict
+
+        page = summary_figure(result, design, verdict=verdict(result))  # one landscape page for slides
+        for fmt in ("png", "svg"):
+            outputs[str(Path(args.plot_dir) / f"{stem}_summary.{fmt}")] = _figure_bytes(page, fmt)
         if drive is not None:
             outputs.update(_drive_figure_outputs(drive, stem, args.plot_dir))
     if args.report:

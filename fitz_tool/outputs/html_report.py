@@ -197,9 +197,14 @@ def render_html_report(result: FitResult, selection: ModelSelection | None, desi
     summary = (f'<p class="verdict"><b>Verdict:</b> {_e(verdict(result))}.<br><b>Model:</b> '
                f"<code>{_e(result.circuit.expression)}</code> ({how}).<br><b>Read:</b> "
                f"{_e(with_symbols(read_as_line(result)))}.</p>")
-    values = _table(("parameter", "value", "SI value", "note"),
-                    [(n, v, f"{result.parameters[n].value:.10g}", note)
-                     for n, v, note in parameter_rows(result)], numeric=(2,))
+    shown = parameter_rows(result)
+    if any(note for _, _, note in shown):
+        values = _table(("parameter", "value", "SI value", "note"),
+                        [(n, v, f"{result.parameters[n].value:.10g}", note) for n, v, note in shown],
+                        numeric=(2,))
+    else:  # no empty note column
+        values = _table(("parameter", "value", "SI value"),
+                        [(n, v, f"{result.parameters[n].value:.10g}") for n, v, _ in shown], numeric=(2,))
     sections = [
         ("Fitted values", values.replace("<table>", '<table id="values">', 1)),
         ("Design values", _design(design)),
