@@ -52,6 +52,7 @@ _EXPORTS: dict[str, str] = {
     "curve_table": "outputs.report",
     "plot_measurement": "outputs.plots",
     "fit_figures": "outputs.plots",
+    "summary_figure": "outputs.plots",
     "render_html_report": "outputs.html_report",
     "to_spice_subcircuit": "outputs.spice",
     "format_quantity": "units",
