@@ -115,3 +115,12 @@ def test_character_reads_as_a_sentence():
     low_end = _summary([Band("resistive", 20.0, 100.0, 5), Band("capacitive", 120.0, 1e5, 30)], [])
     assert character_sentence(low_end) == ("nearly resistive (|phase| < 10 deg) from 20.00 Hz to 120.0 Hz, "
                                            "capacitive above")
+
+
+def test_bare_frequencies_in_notes_are_shown_in_engineering_notation():
+    from fitz_tool.derived import DerivedValue
+    from fitz_tool.outputs.report import format_derived_value
+
+    note = "undefined at resonance: 1e+05 Hz lies within half a bandwidth (2.5e+05 Hz) of 62046.7 Hz"
+    text = format_derived_value(DerivedValue("Q", "quality factor", float("nan"), None, "", note))
+    assert "100.0 kHz" in text and "250.0 kHz" in text and "62.05 kHz" in text and "e+05" not in text

@@ -10,6 +10,7 @@ import argparse
 import datetime
 import hashlib
 import math
+import re
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -107,15 +108,24 @@ def format_value(value: float, unit: str, stderr: float | None = None) -> str:
     return with_symbols(f"{format_to_resolution(value, '', stderr)} deg +/- {stderr:.2g} deg")
 
 
+_BARE_HZ = re.compile(r"(?<![\w.])(\d+(?:\.\d+)?(?:e[-+]?\d+)?) Hz\b")
+
+
+def _engineering_hz(text: str) -> str:
+    """Bare frequencies in a note (``"1e+05 Hz"``, ``"62046.7 Hz"``) in engineering notation."""
+    return _BARE_HZ.sub(lambda m: format_quantity(float(m.group(1)), "Hz"), text)
+
+
 def format_derived_value(value: DerivedValue) -> str:
     """A design value in engineering notation, or the reason it has no uncertainty."""
     if math.isnan(value.value) and value.note.startswith(("undetermined", "undefined")):
-        return value.note
+        return with_symbols(_engineering_hz(value.note))
     if not math.isfinite(value.value):
-        return with_symbols(f"{'infinite' if value.value > 0 else 'undefined'} ({value.note})")
+        what = "infinite" if value.value > 0 else "undefined"
+        return with_symbols(f"{what} ({_engineering_hz(value.note)})")
     text = format_value(value.value, value.unit, value.stderr)
     if value.stderr is None and value.note:
-        text += f"  ({with_symbols(value.note)})"
+        text += f"  ({with_symbols(_engineering_hz(value.note))})"
     return text
 
 
