@@ -179,8 +179,8 @@ def test_few_points_with_an_estimated_noise_level_widen_k_by_the_t_distribution(
 def test_monte_carlo_check_agrees_for_a_nearly_linear_budget_and_is_attached_everywhere():
     _, expression, truth, f, rel, phase_deg, inputs = CASES[0]
     result = ft.fit(_bench(expression, truth, f, rel, phase_deg, seed=7), expression)
-    budget = uncertainty_budget(result, inputs, at=[100e3], monte_carlo=300, seed=2)
-    assert budget.monte_carlo_draws == 300
+    budget = uncertainty_budget(result, inputs, at=[100e3], monte_carlo=120, seed=2)
+    assert budget.monte_carlo_draws == 120
     for name in ("L1", "Cp", "L_eff at 100 kHz"):
         mc = budget.entry(name).monte_carlo
         assert mc is not None and mc.agrees, name

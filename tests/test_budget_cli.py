@@ -66,16 +66,27 @@ def test_without_accuracy_inputs_the_report_says_noise_only(choke_file, tmp_path
     assert "Uncertainties are from noise only (type A)" in capsys.readouterr().out
 
 
-def test_monte_carlo_option_and_html_section(choke_file, tmp_path, capsys):
-    report = tmp_path / "report.html"
-    code, record = _run(choke_file, tmp_path, "--accuracy", "0.5%:0.1deg", "--budget-mc", "60",
-                        "--report", str(report))
+def test_monte_carlo_option(choke_file, tmp_path, capsys):
+    code, record = _run(choke_file, tmp_path, "--accuracy", "0.5%:0.1deg", "--budget-mc", "25")
     assert code == 0
     mc = record["budget"]["parameters"]["L1"]["monte_carlo"]
-    assert mc["draws"] == 60 and mc["low"] < record["parameters"]["L1"]["value"] < mc["high"]
-    html = report.read_text()
-    assert "<h2>Uncertainty budget</h2>" in html and "Monte Carlo (60 draws)" in html
-    assert "Monte Carlo (60 draws)" in capsys.readouterr().out
+    assert mc["draws"] == 25 and mc["low"] < record["parameters"]["L1"]["value"] < mc["high"]
+    assert "Monte Carlo (25 draws)" in capsys.readouterr().out
+
+
+def test_html_report_has_the_budget_section(choke_file):
+    import fitz_tool as ft
+    from fitz_tool.budget import BudgetInputs
+
+    m = ft.read_measurement(str(choke_file), ft.ReadOptions(shunt=0.1))
+    result = ft.fit(m, "(Rs + L1) || Cp")
+    design = ft.design_values(result, [100e3])
+    budget = ft.uncertainty_budget(result, BudgetInputs(shunt_tolerance=0.01), [100e3])
+    html = ft.render_html_report(result, None, design, None, {}, budget=budget)
+    assert "<h2>Uncertainty budget</h2>" in html and "1 % shunt tolerance" in html
+    assert "lab's own uncertainty procedures" in html
+    noise_only = ft.render_html_report(result, None, design, None, {}, budget=ft.uncertainty_budget(result))
+    assert "Uncertainties are from noise only" in noise_only
 
 
 def test_accuracy_table_from_a_file(choke_file, tmp_path):
