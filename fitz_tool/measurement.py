@@ -8,13 +8,15 @@ are relative, phase errors absolute.
 from __future__ import annotations
 
 import dataclasses
+import hashlib
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
 from .exceptions import InputError
 
-__all__ = ["Measurement", "Provenance"]
+__all__ = ["file_sha256", "Measurement", "Provenance"]
 
 
 @dataclass(frozen=True)
@@ -213,3 +215,15 @@ class Measurement:
             sigma_lnmag=pick(self.sigma_lnmag),
             sigma_phase=pick(self.sigma_phase),
         )
+
+
+def file_sha256(path: str | Path) -> str:
+    """SHA-256 (hex) of a file's bytes; ``""`` when it cannot be read."""
+    digest = hashlib.sha256()
+    try:
+        with open(path, "rb") as handle:
+            for block in iter(lambda: handle.read(1 << 16), b""):
+                digest.update(block)
+    except OSError:
+        return ""
+    return digest.hexdigest()

@@ -27,12 +27,13 @@ import pandas as pd
 from .. import __version__
 from ..exceptions import InputError
 from ..fitting.selection import BIC_MARGIN
+from ..measurement import file_sha256
 from ..presets import resolve_model
 from ..units import parse_quantity
 from .inputs import LotItem
 from .job import PartJob, run_part
 from .spec import Spec, parse_spec, split_design_name
-from .store import ResultStore, file_sha256, result_key
+from .store import ResultStore, result_key
 from .table import known_names, lot_table
 
 __all__ = ["LotSettings", "LotResult", "run_lot", "table_from_store", "choose_models", "default_workers"]

@@ -31,7 +31,7 @@ from pathlib import Path
 
 from ..exceptions import InputError, OutputError
 
-__all__ = ["ResultStore", "result_key", "file_sha256"]
+__all__ = ["ResultStore", "result_key"]
 
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS results (
@@ -48,18 +48,6 @@ CREATE TABLE IF NOT EXISTS runs (
 
 def _now() -> str:
     return datetime.datetime.now(datetime.UTC).isoformat(timespec="seconds").replace("+00:00", "Z")
-
-
-def file_sha256(path: str | Path) -> str:
-    """SHA-256 (hex) of a file's bytes; ``""`` when it cannot be read."""
-    digest = hashlib.sha256()
-    try:
-        with open(path, "rb") as handle:
-            for block in iter(lambda: handle.read(1 << 16), b""):
-                digest.update(block)
-    except OSError:
-        return ""
-    return digest.hexdigest()
 
 
 def result_key(sha256: str, standards: Iterable[str], model: str, options: dict, version: str) -> str:

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import argparse
 import datetime
-import hashlib
 import math
 import re
 from collections.abc import Iterable, Sequence
@@ -19,6 +18,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..derived import DerivedValue, DesignValues
+from ..measurement import file_sha256
 from ..results import FitResult, ModelSelection
 from ..units import format_interval, format_quantity, format_to_resolution, with_symbols
 from .wording import describe_form, fit_quality, format_p_value, plain_message, quality_sentence, verdict
@@ -51,17 +51,6 @@ class RunRecord:
     date: str
 
 
-def _sha256(path: str | Path) -> str:
-    digest = hashlib.sha256()
-    try:
-        with open(path, "rb") as handle:
-            for block in iter(lambda: handle.read(1 << 16), b""):
-                digest.update(block)
-    except OSError:
-        return ""
-    return digest.hexdigest()
-
-
 def _option_text(value) -> str:
     if value is None:
         return ""
@@ -88,7 +77,7 @@ def run_record(args: argparse.Namespace | dict, inputs: Iterable[str | Path], ve
     items = vars(args) if isinstance(args, argparse.Namespace) else dict(args)
     options = {key: _option_text(value) for key, value in items.items() if key != "handler"}
     when = (now or datetime.datetime.now(datetime.UTC)).astimezone(datetime.UTC)
-    files = tuple(InputFile(str(p), _sha256(p)) for p in inputs)
+    files = tuple(InputFile(str(p), file_sha256(p)) for p in inputs)
     return RunRecord(options, files, version, when.isoformat(timespec="seconds").replace("+00:00", "Z"))
 
 
