@@ -31,7 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..exceptions import InputError
-from ..limits import no_reading_as_nan
+from ..limits import OVERFLOW_MARKER, no_reading_as_nan
 from .headers import parse_unit
 
 __all__ = ["TextTable", "decode_bytes", "split_table", "parse_number", "numeric_column"]
@@ -148,8 +148,22 @@ def _data_rule(lines: list[str], delimiter: str):
     return is_data
 
 
+#: Lines of a long file on which the delimiter is chosen: the head, then lines spread over the rest.
+_SAMPLE_HEAD, _SAMPLE_SPREAD = 2000, 3000
+
+
+def _sample(lines: list[str]) -> list[str]:
+    """The lines the delimiter is chosen on: all of a short file; of a long one, the first
+    ``_SAMPLE_HEAD`` (metadata and header sit there) and ``_SAMPLE_SPREAD`` spread evenly over the rest."""
+    if len(lines) <= _SAMPLE_HEAD + _SAMPLE_SPREAD:
+        return lines
+    step = max(1, (len(lines) - _SAMPLE_HEAD) // _SAMPLE_SPREAD)
+    return lines[:_SAMPLE_HEAD] + lines[_SAMPLE_HEAD::step]
+
+
 def _choose_delimiter(lines: list[str]):
     best, best_score, best_rule = ",", 0, _is_data
+    lines = _sample(lines)
     for delimiter in _DELIMITERS:
         rule = _data_rule(lines, delimiter)
         widths = [len(c) for c in (_cells(line, delimiter) for line in lines) if rule(c)]
@@ -269,11 +283,28 @@ def parse_number(cell: str, decimal: str = ".") -> float:
     raise ValueError(f"not a number: {cell!r}")
 
 
+def _plain_column(table: TextTable, index: int) -> np.ndarray | None:
+    """The column as floats when every cell is a plain number in the table's decimal mark (one regular
+    expression over the whole column, then one conversion); None when any cell needs the cell-by-cell rules
+    of :func:`parse_number` (missing cells, thousands separators, text). Same values either way."""
+    cells = [row[index] for row in table.rows]
+    number = _NUMBER if table.decimal == "." else _NUMBER_COMMA
+    if not cells or not re.fullmatch(rf"(?:[ \t]*{number.pattern}[ \t]*\n)*", "\n".join(cells) + "\n"):
+        return None
+    values = np.array([c.replace(",", ".") for c in cells] if table.decimal == "," else cells, dtype=float)
+    with np.errstate(invalid="ignore"):
+        values[~np.isfinite(values) | (np.abs(values) >= OVERFLOW_MARKER)] = np.nan  # no reading
+    return values
+
+
 def numeric_column(table: TextTable, index: int, where: str, rows: np.ndarray | None = None) -> np.ndarray:
     """Column ``index`` as floats (NaN where missing); InputError naming line and column for other text.
 
     ``rows`` (bool per row) limits the reading to those rows; the others come back as NaN.
     """
+    fast = _plain_column(table, index) if rows is None else None
+    if fast is not None:
+        return fast
     values = np.full(len(table.rows), np.nan)
     for k, row in enumerate(table.rows):
         if rows is not None and not rows[k]:
