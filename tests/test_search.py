@@ -75,3 +75,19 @@ def test_scatter_estimate_matches_the_noise_it_was_given(points):
     smooth = np.linspace(0, 1, points) ** 2
     estimate = scatter_sigma(smooth + rng.normal(0, sigma, points), rng.normal(0, sigma, points))
     assert estimate == pytest.approx(sigma, rel=0.35 if points == 50 else 0.12)
+
+
+def test_figures_of_a_long_sweep_draw_a_thinned_copy():
+    from fitz_tool.outputs.plots import PLOT_POINTS, fit_figures
+
+    rng = np.random.default_rng(6)
+    f = np.geomspace(1e4, 1e8, 20_001)
+    z = choke_impedance(f, *TRUTH.values()) * np.exp(rng.normal(0, 1e-3, f.size))
+    result = fit(Measurement(f, z), "(Rs + L1) || Cp", intervals="none")
+    figures = fit_figures(result)
+    sizes = [len(line.get_xdata()) for fig in figures.values() for ax in fig.axes for line in ax.lines]
+    sizes += [len(c.get_offsets()) for fig in figures.values() for ax in fig.axes for c in ax.collections]
+    # measured points thinned to PLOT_POINTS (+ the |Z| extremes); model curves on their own 5,000-point grid
+    assert max(sizes) <= max(PLOT_POINTS + 2, 5000)
+    assert any(PLOT_POINTS <= s <= PLOT_POINTS + 2 for s in sizes)
+    assert result.n_points == 20_001  # the fit itself used every point

@@ -12,6 +12,7 @@ outside the data area (above the panels), never on the points.
 
 from __future__ import annotations
 
+import dataclasses
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -106,6 +107,28 @@ def _part_name(measurement: Measurement) -> str:
     return Path(source).name if source else "part"
 
 
+#: Most measured points a figure draws; longer sweeps are thinned for display only (the fit used them all).
+PLOT_POINTS = 4000
+
+
+def thinned(measurement: Measurement) -> Measurement:
+    """At most about ``PLOT_POINTS`` evenly spaced points of a long sweep, plus its largest and smallest |Z|
+    (so a peak or a dip stays drawn); the measurement itself when it is short enough."""
+    n = len(measurement)
+    if n <= PLOT_POINTS:
+        return measurement
+    keep = np.zeros(n, dtype=bool)
+    keep[np.linspace(0, n - 1, PLOT_POINTS).round().astype(int)] = True
+    keep[[int(np.argmax(measurement.magnitude)), int(np.argmin(measurement.magnitude))]] = True
+    return measurement.select(keep, f"drew {int(keep.sum())} of {n} points (thinned for display)")
+
+
+def _displayed(result: FitResult) -> FitResult:
+    """The fit with its measurement thinned for display (values, errors and counts unchanged)."""
+    m = thinned(result.measurement)
+    return result if m is result.measurement else dataclasses.replace(result, measurement=m)
+
+
 def plot_measurement(measurement: Measurement) -> Figure:
     """Bode view of a measurement: |Z| (log-log) over phase (degrees), sharing the frequency axis.
 
@@ -119,6 +142,7 @@ def plot_measurement(measurement: Measurement) -> Figure:
     matplotlib.figure.Figure
         Two panels; error bars of +/- 1 sigma when the measurement carries per-point uncertainties.
     """
+    measurement = thinned(measurement)
     f = measurement.frequency
     figure = _figure(7.0, 5.2)
     ax_mag, ax_phase = figure.subplots(2, 1, sharex=True, height_ratios=[3, 2])
@@ -330,6 +354,7 @@ def fit_figures(result: FitResult, design: DesignValues | None = None) -> dict[s
         frequency; ``"resistance_reactance"``: R and |X| over frequency; ``"impedance_plane"``: Im Z against
         Re Z, left out when the plane shows little (:func:`plane_is_degenerate`).
     """
+    result = _displayed(result)
     figures = {
         "bode": _bode_figure(result, design),
         "q": _q_figure(result, design),
@@ -353,6 +378,7 @@ def summary_figure(result: FitResult, design: DesignValues | None = None,
     verdict : str
         One line under the title (e.g. the report's verdict).
     """
+    result = _displayed(result)
     from .report import parameter_rows
 
     m = result.measurement
