@@ -282,12 +282,13 @@ def _find_resonances(result: FitResult, propagation: _Propagation) -> list[Reson
             d_g_df = (-dz_df / z0**2).imag
         in_sweep = bool(f_meas[0] <= f0 <= f_meas[-1])
         label = f"{kind} self-resonance" + ("" if in_sweep else " (extrapolated outside the sweep)")
-        if d_g_df != 0:
-            value = _value("SRF", label, f0, {n: -v / d_g_df for n, v in d_g.items()}, propagation, "Hz")
+        df0 = {n: -v / d_g_df for n, v in d_g.items()} if d_g_df != 0 else None
+        if df0 is not None:
+            value = _value("SRF", label, f0, df0, propagation, "Hz")
         else:
             value = DerivedValue("SRF", label, f0, None, "Hz",
                                  "reactance does not change with frequency here")
-        found.append(Resonance(value, kind, in_sweep, _resonator_q(result, f0, label, propagation)))
+        found.append(Resonance(value, kind, in_sweep, _resonator_q(result, f0, df0, label, propagation)))
     return found
 
 
@@ -299,19 +300,13 @@ def _phase_slope_q(result: FitResult, values: dict[str, float], f0: float) -> fl
     return float(f0 / 2 * abs((dz_df / z).imag))
 
 
-def _refind(result: FitResult, values: dict[str, float], f0: float) -> float | None:
-    """The reactance zero nearest ``f0`` (Hz) for perturbed ``values``, within +/- 1 %."""
-    def reactance(log_f: float) -> float:
-        return float(result.circuit.impedance(np.array([math.exp(log_f)]), values)[0].imag)
+def _resonator_q(result: FitResult, f0: float, df0: dict[str, float] | None, label: str,
+                 propagation: _Propagation) -> DerivedValue:
+    """Resonator Q of the resonance at f0 with its first-order uncertainty.
 
-    low, high = math.log(f0 * 0.99), math.log(f0 * 1.01)
-    if reactance(low) * reactance(high) > 0:
-        return None
-    return math.exp(brentq(reactance, low, high, xtol=1e-15, rtol=1e-15))
-
-
-def _resonator_q(result: FitResult, f0: float, label: str, propagation: _Propagation) -> DerivedValue:
-    """Resonator Q of the resonance at f0 with its first-order uncertainty (central differences)."""
+    Q depends on the parameters directly and through f0: dQ/dp = dQ/dp|f0 + (dQ/df0) (df0/dp), with df0/dp
+    from the implicit function theorem (``df0``) and the two partial derivatives by central differences.
+    """
     name, what = "Q_resonator", f"resonator Q of the {label} (f0 / bandwidth)"
     values = dict(result.values)
     z0 = complex(result.circuit.impedance(np.array([f0]), values)[0])
@@ -320,16 +315,15 @@ def _resonator_q(result: FitResult, f0: float, label: str, propagation: _Propaga
                             "no loss in the model's resonating loop, so the resonance has no finite width")
     q = _phase_slope_q(result, values, f0)
     gradient: dict[str, float] = {}
-    for pname in propagation.names or tuple(values):
-        step = 1e-6 * values[pname] if values[pname] != 0 else 1e-12
-        sides = []
-        for sign in (1, -1):
-            trial = dict(values)
-            trial[pname] = values[pname] + sign * step
-            f_trial = _refind(result, trial, f0)
-            sides.append(None if f_trial is None else _phase_slope_q(result, trial, f_trial))
-        if None not in sides:
-            gradient[pname] = (sides[0] - sides[1]) / (2 * step)
+    if df0 is not None:
+        h = 1e-6 * f0
+        dq_df = (_phase_slope_q(result, values, f0 + h) - _phase_slope_q(result, values, f0 - h)) / (2 * h)
+        for pname in propagation.names or tuple(values):
+            step = 1e-6 * values[pname] if values[pname] != 0 else 1e-12
+            up, down = dict(values), dict(values)
+            up[pname], down[pname] = values[pname] + step, values[pname] - step
+            direct = (_phase_slope_q(result, up, f0) - _phase_slope_q(result, down, f0)) / (2 * step)
+            gradient[pname] = direct + dq_df * df0.get(pname, 0.0)
     return _value(name, what, q, gradient, propagation, "")
 
 
