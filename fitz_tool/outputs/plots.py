@@ -201,6 +201,19 @@ def _mark_frequencies(axes, design: DesignValues | None, f_low: float, f_high: f
             ax.axvline(point.frequency, color=PALETTE["operating"], linestyle=":", linewidth=1.2, label=label)
 
 
+def _draw_bode(ax_mag, ax_phase, m: Measurement, grid: np.ndarray, z_model: np.ndarray, *, markersize: float,
+               linewidth: float) -> tuple[dict, dict]:
+    """Measured points and the model curve on a |Z| (log) and a phase axis; returns the two styles."""
+    dots = dict(color=PALETTE["measured"], marker="o", markersize=markersize, linestyle="none")
+    line = dict(color=PALETTE["model"], linewidth=linewidth)
+    ax_mag.set_yscale("log")
+    ax_mag.plot(m.frequency, m.magnitude, label="measured", **dots)
+    ax_mag.plot(grid, np.abs(z_model), label="fitted model", **line)
+    ax_phase.plot(m.frequency, m.phase_deg, **dots)
+    ax_phase.plot(grid, np.degrees(np.angle(z_model)), **line)
+    return dots, line
+
+
 def _bode_figure(result: FitResult, design: DesignValues | None) -> Figure:
     m = result.measurement
     f = m.frequency
@@ -209,13 +222,7 @@ def _bode_figure(result: FitResult, design: DesignValues | None) -> Figure:
     sig_mag, sig_phase, noise_label = _noise_levels(result)
     figure = _figure(7.5, 8.0)
     ax_mag, ax_rmag, ax_phase, ax_rphase = figure.subplots(4, 1, sharex=True, height_ratios=[3, 1.3, 2, 1.3])
-    dots = dict(color=PALETTE["measured"], marker="o", markersize=2.8, linestyle="none")
-    line = dict(color=PALETTE["model"], linewidth=1.6)
-    ax_mag.set_yscale("log")
-    ax_mag.plot(f, m.magnitude, label="measured", **dots)
-    ax_mag.plot(grid, np.abs(z_model), label="fitted model", **line)
-    ax_phase.plot(f, m.phase_deg, **dots)
-    ax_phase.plot(grid, np.degrees(np.angle(z_model)), **line)
+    _draw_bode(ax_mag, ax_phase, m, grid, z_model, markersize=2.8, linewidth=1.6)
     for ax, values, sigma, label in ((ax_rmag, 100 * residual.real, 100 * sig_mag, "|Z| residual (%)"),
                                      (ax_rphase, np.degrees(residual.imag), np.degrees(sig_phase),
                                       "phase residual (deg)")):
@@ -392,13 +399,7 @@ def summary_figure(result: FitResult, design: DesignValues | None = None,
     ax_res = figure.add_subplot(grid_spec[2, 0], sharex=ax_mag)
     ax_q = figure.add_subplot(grid_spec[0, 1])
     ax_table = figure.add_subplot(grid_spec[1:, 1])
-    dots = dict(color=PALETTE["measured"], marker="o", markersize=2.4, linestyle="none")
-    line = dict(color=PALETTE["model"], linewidth=1.5)
-    ax_mag.set_yscale("log")
-    ax_mag.plot(f, m.magnitude, label="measured", **dots)
-    ax_mag.plot(grid, np.abs(z_model), label="fitted model", **line)
-    ax_phase.plot(f, m.phase_deg, **dots)
-    ax_phase.plot(grid, np.degrees(np.angle(z_model)), **line)
+    dots, line = _draw_bode(ax_mag, ax_phase, m, grid, z_model, markersize=2.4, linewidth=1.5)
     ax_phase.set_ylim(-95, 95)
     ax_phase.set_yticks([-90, -45, 0, 45, 90])
     ax_res.axhline(0.0, color=PALETTE["ink"], linewidth=0.6)
