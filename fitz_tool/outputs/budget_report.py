@@ -16,6 +16,9 @@ from ..units import format_quantity, format_to_resolution, with_symbols
 __all__ = ["budget_lines", "budget_html", "budget_to_json", "NOISE_ONLY_LINE"]
 
 #: Said wherever uncertainties are shown without any stated accuracy input.
+#: The practice wording under every budget (terminal and HTML).
+PRACTICE_LINE = ("The budget assumes the stated limits and the instruments' calibration; for accredited work "
+                 "follow the lab's own uncertainty procedures.")
 NOISE_ONLY_LINE = ("Uncertainties are from noise only (type A): no instrument, shunt, reference, fixture or "
                    "skew limits were stated (--accuracy, --shunt-tolerance, ...), so they describe "
                    "precision, "
@@ -116,8 +119,7 @@ def budget_lines(budget: Budget) -> list[str]:
             lines.append(f"    {e.dominant}; {e.advice}")
         if e.monte_carlo is not None:
             lines.append(f"    {e.monte_carlo.note}")
-    lines += ["", "  The budget assumes the stated limits and the instruments' calibration; for accredited "
-              "work follow the lab's own uncertainty procedures."]
+    lines += ["", f"  {PRACTICE_LINE}"]
     return lines
 
 
@@ -145,8 +147,7 @@ def budget_html(budget: Budget) -> str:
             parts.append(f"<p>{escape(e.dominant)}; {escape(e.advice)}.</p>")
         if e.monte_carlo is not None:
             parts.append(f"<p>{escape(e.monte_carlo.note)}.</p>")
-    parts.append("<p>The budget assumes the stated limits and the instruments' calibration; for accredited "
-                 "work follow the lab's own uncertainty procedures.</p>")
+    parts.append(f"<p>{escape(PRACTICE_LINE, quote=False)}</p>")
     return "".join(parts)
 
 
