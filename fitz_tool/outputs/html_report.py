@@ -19,7 +19,7 @@ from ..derived import DesignValues
 from ..results import FitResult, ModelSelection
 from ..units import with_symbols
 from .report import RunRecord, format_derived_value, format_value, parameter_rows, quality_rows, read_as_line
-from .wording import plain_message, verdict
+from .wording import describe_form, plain_message, verdict
 
 __all__ = ["render_html_report", "SAFETY_NOTES", "FIGURE_CAPTIONS"]
 
@@ -152,7 +152,7 @@ def _part(result: FitResult, record: RunRecord | None) -> str:
     m = result.measurement
     prov = m.provenance
     rows = [("input file", prov.source or "(data built in code)"), ("SHA-256", prov.sha256 or "-"),
-            ("input form", prov.form), ("points", len(m)),
+            ("read as", describe_form(m)), ("points", len(m)),
             ("sweep", f"{format_value(m.frequency[0], 'Hz')} to {format_value(m.frequency[-1], 'Hz')}"),
             ("noise", "per-point sigma (" + ("absolute" if m.sigma_absolute else "relative weights") + ")"
              if m.sigma_lnmag is not None else "not stated: estimated from the residuals")]

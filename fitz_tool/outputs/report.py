@@ -313,7 +313,8 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
         "selection_reason": selection.reason if selection is not None else None,
         "derived": derived_to_json(design),
         "provenance": {"source": prov.source, "sha256": prov.sha256, "form": prov.form,
-                       "columns": dict(prov.columns), "units": dict(prov.units), "steps": list(prov.steps),
+                       "description": describe_form(result.measurement), "columns": dict(prov.columns),
+                       "units": dict(prov.units), "steps": list(prov.steps),
                        "warnings": list(prov.warnings), "points": len(result.measurement),
                        "sigma_absolute": bool(result.measurement.sigma_absolute)},
         "run": None if record is None else {

@@ -29,8 +29,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 from ..exceptions import InputError
+from .forms import INPUT_FORMS
 from .headers import LCR, HeaderInfo, parse_header
-from .lcr import LCR_FORMS
 
 __all__ = ["ROLES", "FORMS", "UNCERTAINTY_ROLES", "ColumnPlan", "plan_columns"]
 
@@ -45,15 +45,8 @@ UNCERTAINTY_ROLES: dict[str, dict[str, str]] = {
     "z_rect": {"u_z_real": "real", "u_z_imag": "imag"},
 }
 
-#: Forms in order of preference, with the roles each needs.
-FORMS: dict[str, tuple[str, ...]] = {
-    "z_polar": ("frequency", "z_magnitude", "z_phase"),
-    "z_rect": ("frequency", "z_real", "z_imag"),
-    "v_i": ("frequency", "v_amplitude", "v_phase", "i_amplitude", "i_phase"),
-    "v_i_difference": ("frequency", "v_amplitude", "i_amplitude", "z_phase"),
-    "ratio": ("frequency", "ratio_magnitude", "ratio_phase"),
-    **LCR_FORMS,
-}
+#: Forms in order of preference, with the roles each needs (from the one table of input forms).
+FORMS: dict[str, tuple[str, ...]] = {name: form.roles for name, form in INPUT_FORMS.items()}
 _MEANING = {"v_i_difference": " (z_phase: the phase of V relative to I)",
             "ratio": " (ratio: part voltage over reference-resistor voltage)"}
 _PREFIX = {"voltage": "v", "current": "i", "impedance": "z", "ratio": "ratio"}

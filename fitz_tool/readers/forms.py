@@ -1,6 +1,8 @@
 """From the recognized columns to impedance: units to SI, amplitudes to peak, phases to rad, then Z.
 
-The five input forms (e^{+jwt}, Z = V / I, positive phase inductive):
+Every input form is one entry of ``INPUT_FORMS`` (roles it needs, converter, what was read in words); the
+column planner takes its forms from that table and ``build_impedance`` only looks the plan's form up in it.
+The forms (e^{+jwt}, Z = V / I, positive phase inductive):
 
 ==================  =====================================  ==================================================
 form                columns                                impedance
@@ -23,19 +25,24 @@ amplitude noise and absolute phase noise pass through unchanged and no per-point
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ..exceptions import InputError
 from ..phasor import db_to_linear, phase_to_radians, phasors_to_impedance, polar_to_complex, to_peak
 from ..units import prefix_factor
-from .columns import ColumnPlan
 from .headers import HeaderInfo
 from .lcr import LCR_FORMS, lcr_to_impedance
 
+if TYPE_CHECKING:
+    from .columns import ColumnPlan
+
 __all__ = ["AMPLITUDE_ROLES", "VOLTAGE_BASES", "unit_label", "understood", "refuse_unknown_unit",
-           "convert_columns", "build_impedance", "stated_sigmas"]
+           "convert_columns", "InputForm", "INPUT_FORMS", "SHUNT_FORM", "form_words", "build_impedance",
+           "stated_sigmas"]
 
 #: Roles whose values are magnitudes (never negative).
 AMPLITUDE_ROLES = ("v_amplitude", "i_amplitude", "z_magnitude", "ratio_magnitude")
@@ -205,9 +212,108 @@ def convert_columns(plan: ColumnPlan, raw: Mapping[str, np.ndarray], where: str,
     return values, steps, warnings
 
 
+Converter = Callable[[Mapping[str, np.ndarray], "float | None", "float | None"], tuple[np.ndarray, list[str]]]
+
+
+@dataclass(frozen=True)
+class InputForm:
+    """One input form: the roles it needs, how Z follows from them, and what was read in words.
+
+    Attributes
+    ----------
+    roles : tuple of str
+        The roles the form needs, frequency first.
+    convert : callable
+        ``convert(values, shunt, reference) -> (Z in ohm, steps in words)``; values are role -> SI values
+        (amplitudes peak, phases rad), ``shunt`` is the shunt resistance in ohm when the current column holds
+        a shunt voltage (else None), ``reference`` the reference resistance in ohm (``--reference``).
+    description : str
+        What was read, in words; ``{current}`` (V/I forms) becomes "current through it" or "across a R ohm
+        shunt", ``{reference}`` the reference resistance.
+    recorded : str
+        The name recorded in ``Provenance.form`` (the key when empty).
+    """
+
+    roles: tuple[str, ...]
+    convert: Converter
+    description: str
+    recorded: str = ""
+
+
+def _current(values: Mapping[str, np.ndarray], shunt: float | None) -> tuple[np.ndarray, list[str]]:
+    """Current in A (peak): the current column, or the shunt voltage over the shunt resistance."""
+    if shunt is None:
+        return values["i_amplitude"], []
+    return values["i_amplitude"] / shunt, [f"current = shunt voltage / {shunt:g} ohm (--shunt)"]
+
+
+def _z_polar(values, shunt, reference):
+    return polar_to_complex(values["z_magnitude"], values["z_phase"]), ["Z = |Z| e^(j phase)"]
+
+
+def _z_rect(values, shunt, reference):
+    return values["z_real"] + 1j * values["z_imag"], ["Z = R + j X"]
+
+
+def _v_i(values, shunt, reference):
+    current, steps = _current(values, shunt)
+    z = phasors_to_impedance(values["v_amplitude"], values["v_phase"], current, values["i_phase"])
+    return z, [*steps, "Z = V / I: |Z| = V_pk / I_pk, phase = phase(V) - phase(I) wrapped to (-180, 180] deg"]
+
+
+def _v_i_difference(values, shunt, reference):
+    current, steps = _current(values, shunt)
+    z = polar_to_complex(values["v_amplitude"] / current, values["z_phase"])
+    return z, [*steps, "Z = V / I: |Z| = V_pk / I_pk, phase = the phase of V relative to I"]
+
+
+def _ratio(values, shunt, reference):
+    z = reference * polar_to_complex(values["ratio_magnitude"], values["ratio_phase"])
+    return z, [f"Z = R_ref * H with R_ref = {reference:g} ohm (--reference), H = V_part / V_ref"]
+
+
+def _lcr(form: str) -> Converter:
+    return lambda values, shunt, reference: lcr_to_impedance(form, values)
+
+
+_LCR_WORDS = {"cs": "series capacitance", "ls": "series inductance", "cp": "parallel capacitance",
+              "lp": "parallel inductance", "rs": "series resistance", "rp": "parallel resistance",
+              "d": "dissipation factor", "q": "quality factor"}
+
+#: The input forms of a delimited table, in order of preference (the first complete one is read).
+INPUT_FORMS: dict[str, InputForm] = {
+    "z_polar": InputForm(("frequency", "z_magnitude", "z_phase"), _z_polar, "impedance magnitude and phase"),
+    "z_rect": InputForm(("frequency", "z_real", "z_imag"), _z_rect, "resistance and reactance (Z = R + jX)"),
+    "v_i": InputForm(("frequency", "v_amplitude", "v_phase", "i_amplitude", "i_phase"), _v_i,
+                     "voltage across the part and {current}", "v_i_phasors"),
+    "v_i_difference": InputForm(("frequency", "v_amplitude", "i_amplitude", "z_phase"), _v_i_difference,
+                                "voltage across the part and {current}", "v_i_phasors"),
+    "ratio": InputForm(("frequency", "ratio_magnitude", "ratio_phase"), _ratio,
+                       "part voltage over the voltage across a {reference} ohm reference resistor"),
+    **{form: InputForm(roles, _lcr(form), "LCR-meter readings: " + " and ".join(
+        _LCR_WORDS[k] for k in form.split("_")[1:]))
+       for form, roles in LCR_FORMS.items()},
+}
+#: A V/I form whose current column is a shunt voltage is recorded under this name.
+SHUNT_FORM = "v_shunt"
+
+
+def form_words(form: str, shunt: float | None = None, reference: float | None = None) -> str | None:
+    """What a recorded form (``Provenance.form``) read, in words; None for a form not in the table."""
+    current = f"across a {shunt:g} ohm shunt" if shunt else "across a ? ohm shunt"
+    if form != SHUNT_FORM:
+        current = "current through it"
+    for name, entry in INPUT_FORMS.items():
+        if (entry.recorded or name) == form or (form == SHUNT_FORM and "{current}" in entry.description):
+            return entry.description.format(current=current, reference=f"{reference:g}" if reference else "?")
+    return None
+
+
 def build_impedance(plan: ColumnPlan, values: Mapping[str, np.ndarray], shunt: float | None,
                     reference: float | None, where: str) -> tuple[np.ndarray, str, list[str], list[str]]:
-    """Impedance in ohm from converted columns; returns (Z, form name, steps, warnings).
+    """Impedance in ohm from converted columns by the plan's entry in ``INPUT_FORMS``.
+
+    Returns (Z, recorded form name, steps, warnings).
 
     Parameters
     ----------
@@ -216,67 +322,44 @@ def build_impedance(plan: ColumnPlan, values: Mapping[str, np.ndarray], shunt: f
     values : mapping of str to ndarray
         Role -> SI values (amplitudes peak, phases rad), as from ``convert_columns``.
     shunt : float or None
-        Series shunt resistance in ohm (form ``v_shunt``).
+        Series shunt resistance in ohm (a current column that holds a shunt voltage).
     reference : float or None
         Reference resistance in ohm (form ``ratio``).
     where : str
         File name for messages.
     """
-    steps: list[str] = []
     warnings: list[str] = []
     for name, value in (("--shunt", shunt), ("--reference", reference)):
         if value is not None and not (np.isfinite(value) and value > 0):
             raise InputError(f"{where}: {name} {value!r}: must be a resistance above 0 ohm")
-    if plan.form == "z_polar":
-        z = polar_to_complex(values["z_magnitude"], values["z_phase"])
-        steps.append("Z = |Z| e^(j phase)")
-        form = "z_polar"
-    elif plan.form == "z_rect":
-        z = values["z_real"] + 1j * values["z_imag"]
-        steps.append("Z = R + j X")
-        form = "z_rect"
-    elif plan.form in LCR_FORMS:
-        z, lcr_steps = lcr_to_impedance(plan.form, values)
-        steps += lcr_steps
-        form = plan.form
-    elif plan.form == "ratio":
-        if reference is None:
-            info = plan.columns["ratio_magnitude"]
-            if info.subject_from_unit:
-                raise InputError(f"{where}: column {info.header!r} is a magnitude in dB with no reference, "
-                                 f"so it cannot be read as impedance: if it is V_part / V_ref, pass "
-                                 f"--reference OHMS; if it is |Z| in dB re 1 ohm, say so in its unit, "
-                                 f"e.g. 'Mag (dBOhm)'")
-            raise InputError(f"{where}: a transfer-ratio file (column {info.header!r}) "
-                             f"needs the reference resistor: pass --reference OHMS")
-        z = reference * polar_to_complex(values["ratio_magnitude"], values["ratio_phase"])
-        steps.append(f"Z = R_ref * H with R_ref = {reference:g} ohm (--reference), H = V_part / V_ref")
-        form = "ratio"
-    else:
-        i_info = plan.columns["i_amplitude"]
-        current = values["i_amplitude"]
-        form = "v_i_phasors"
-        if i_info.base in VOLTAGE_BASES:
-            if shunt is None:
-                raise InputError(f"{where}: column {i_info.header!r} is a voltage, so the current was "
-                                 f"measured across a shunt: pass --shunt OHMS (its resistance)")
-            current = current / shunt
-            form = "v_shunt"
-            steps.append(f"current = shunt voltage / {shunt:g} ohm (--shunt)")
-        elif shunt is not None:
-            warnings.append(f"--shunt {shunt:g} ignored: column {i_info.header!r} already holds current")
-        if plan.form == "v_i":
-            z = phasors_to_impedance(values["v_amplitude"], values["v_phase"], current, values["i_phase"])
-            steps.append("Z = V / I: |Z| = V_pk / I_pk, phase = phase(V) - phase(I) wrapped to "
-                         "(-180, 180] deg")
-        else:
-            z = polar_to_complex(values["v_amplitude"] / current, values["z_phase"])
-            steps.append("Z = V / I: |Z| = V_pk / I_pk, phase = the phase of V relative to I")
-    if reference is not None and form != "ratio":
-        warnings.append(f"--reference {reference:g} ignored: the file is not a transfer ratio ({form})")
-    if shunt is not None and (form in ("z_polar", "z_rect", "ratio") or form in LCR_FORMS):
-        warnings.append(f"--shunt {shunt:g} ignored: the file holds no shunt voltage ({form})")
-    return z, form, steps, warnings
+    entry = INPUT_FORMS[plan.form]
+    form = entry.recorded or plan.form
+    used_shunt = None
+    if plan.form == "ratio" and reference is None:
+        info = plan.columns["ratio_magnitude"]
+        if info.subject_from_unit:
+            raise InputError(f"{where}: column {info.header!r} is a magnitude in dB with no reference, "
+                             f"so it cannot be read as impedance: if it is V_part / V_ref, pass "
+                             f"--reference OHMS; if it is |Z| in dB re 1 ohm, say so in its unit, "
+                             f"e.g. 'Mag (dBOhm)'")
+        raise InputError(f"{where}: a transfer-ratio file (column {info.header!r}) "
+                         f"needs the reference resistor: pass --reference OHMS")
+    i_info = plan.columns.get("i_amplitude")
+    if i_info is not None and i_info.base in VOLTAGE_BASES:
+        if shunt is None:
+            raise InputError(f"{where}: column {i_info.header!r} is a voltage, so the current was "
+                             f"measured across a shunt: pass --shunt OHMS (its resistance)")
+        used_shunt, form = shunt, SHUNT_FORM
+    elif i_info is not None and shunt is not None:
+        warnings.append(f"--shunt {shunt:g} ignored: column {i_info.header!r} already holds current")
+    z, steps = entry.convert(values, used_shunt, reference)
+    words = form_words(form, shunt, reference)
+    if reference is not None and plan.form != "ratio":
+        warnings.append(f"--reference {reference:g} ignored: the file is not a transfer ratio (it holds "
+                        f"{words})")
+    if shunt is not None and i_info is None:
+        warnings.append(f"--shunt {shunt:g} ignored: the file holds no shunt voltage (it holds {words})")
+    return z, form, list(steps), warnings
 
 
 def stated_sigmas(plan: ColumnPlan, values: Mapping[str, np.ndarray],

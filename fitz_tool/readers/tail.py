@@ -16,37 +16,17 @@ from collections.abc import Mapping
 import numpy as np
 
 from ..exceptions import InputError
+from .forms import form_words
 
-__all__ = ["drop_rows", "finish_rows", "describe", "FORM_WORDS"]
+__all__ = ["drop_rows", "finish_rows", "describe"]
 
-#: Each input form in plain words, as the terminal and the report show it.
-FORM_WORDS: dict[str, str] = {
-    "z_polar": "impedance magnitude and phase",
-    "z_rect": "resistance and reactance (Z = R + jX)",
-    "v_i_phasors": "voltage across the part and current through it",
-    "v_shunt": "voltage across the part and across a {shunt} ohm shunt",
-    "ratio": "part voltage over the voltage across a {reference} ohm reference resistor",
-    "simulator_complex": "complex values from a circuit-simulator export",
-    "lcr_cs_rs": "LCR-meter readings: series capacitance and series resistance",
-    "lcr_cs_d": "LCR-meter readings: series capacitance and dissipation factor",
-    "lcr_cs_q": "LCR-meter readings: series capacitance and quality factor",
-    "lcr_ls_rs": "LCR-meter readings: series inductance and series resistance",
-    "lcr_ls_q": "LCR-meter readings: series inductance and quality factor",
-    "lcr_ls_d": "LCR-meter readings: series inductance and dissipation factor",
-    "lcr_cp_rp": "LCR-meter readings: parallel capacitance and parallel resistance",
-    "lcr_cp_d": "LCR-meter readings: parallel capacitance and dissipation factor",
-    "lcr_cp_q": "LCR-meter readings: parallel capacitance and quality factor",
-    "lcr_lp_rp": "LCR-meter readings: parallel inductance and parallel resistance",
-    "lcr_lp_q": "LCR-meter readings: parallel inductance and quality factor",
-    "lcr_lp_d": "LCR-meter readings: parallel inductance and dissipation factor",
-}
-
+#: Forms read outside the table of input forms (``forms.INPUT_FORMS``), in words.
+_OTHER_WORDS = {"simulator_complex": "complex values from a circuit-simulator export"}
 
 def describe(form: str, shunt: float | None = None, reference: float | None = None, stated: bool = False,
              columns: Mapping[str, str] | None = None) -> str:
     """What was read, in plain words (``"voltage across the part and across a 0.1 ohm shunt"``)."""
-    text = FORM_WORDS.get(form, form).format(shunt=f"{shunt:g}" if shunt else "?",
-                                             reference=f"{reference:g}" if reference else "?")
+    text = form_words(form, shunt, reference) or _OTHER_WORDS.get(form, form)
     if form == "simulator_complex" and columns:
         if "z_complex" in columns:
             text = f"complex impedance {columns['z_complex']} from a circuit-simulator export"
