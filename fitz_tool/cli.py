@@ -19,6 +19,7 @@ from pathlib import Path
 
 from . import __version__
 from .exceptions import FitzError, InputError, ModelSyntaxError, OutputError
+from .fitting.work import DEFAULT_MAX_EVALUATIONS, DEFAULT_MAX_TIME, work_budget
 from .limits import check_expression, check_frequency, check_resistance, check_skew
 from .units import parse_quantity
 
@@ -403,38 +404,16 @@ def _touchstone_output(args, result) -> str:
     return to_touchstone(result, args.touchstone, frequency, through=args.through)
 
 
-def _cmd_fit(args) -> int:
+def _fit_work(args, measurement, constraints, limits, at, waveform):
+    """The fit (one model or auto), design values, uncertainty budget and drive response: the work that the
+    budget of ``--max-time`` and ``--max-evaluations`` covers. Returns (selection, result, design, budget,
+    drive)."""
     from .budget import uncertainty_budget
     from .derived import design_values
     from .fitting.least_squares import fit
     from .fitting.selection import fit_auto
-    from .outputs.atomic import check_targets, write_outputs
-    from .outputs.report import fit_to_json, format_fit_report, run_record
     from .presets import resolve_model
 
-    check_expression(args.model)
-    at = [check_frequency(parse_quantity(a, "Hz", "--at"), "--at") for a in args.at]
-    if args.curve_band and not args.touchstone:
-        raise InputError("--curve-band sets the frequencies of the --touchstone export; "
-                         "give --touchstone too")
-    if args.curve_band:
-        _curve_band(args.curve_band)
-    if args.touchstone and Path(args.touchstone).suffix.lower() not in (".s1p", ".s2p"):
-        raise OutputError(f"--touchstone {args.touchstone}: name the file .s1p (reflection) or .s2p "
-                          f"(through line)")
-    if args.touchstone and Path(args.touchstone).suffix.lower() == ".s2p" and not args.through:
-        raise InputError(f"--touchstone {args.touchstone}: a .s2p export needs --through series or shunt "
-                         f"(how the part sits in the line); or name it .s1p for the reflection")
-    constraints = _constraints(args)
-    limits = budget_inputs_from_args(args)
-    check_targets(_fit_targets(args), [args.file, *_standard_files(args),
-                                       *([args.accuracy_table] if args.accuracy_table else [])])
-    if args.plot_dir and Path(args.plot_dir).exists() and not Path(args.plot_dir).is_dir():
-        raise OutputError(f"--plot-dir {args.plot_dir}: is a file, not a folder; choose a folder name")
-    waveform, drive_inputs = _drive_waveform_from_args(args, "drive-")  # read before the fit: errors first
-    measurement, inputs = load_from_args(args)
-    if args.accuracy_table:
-        inputs.append(args.accuracy_table)
     selection = None
     if args.model.strip().lower() == "auto":
         if args.jobs is not None and args.jobs < 1:
@@ -468,6 +447,46 @@ def _cmd_fit(args) -> int:
         from .drive import drive_response, model_from_fit
 
         drive = drive_response(model_from_fit(result, budget), waveform, args.allow_extrapolation)
+    return selection, result, design, budget, drive
+
+
+def _finite_positive(value: float, option: str) -> float:
+    if not (math.isfinite(value) and value > 0):
+        raise InputError(f"{option} {value:g}: give a positive number")
+    return value
+
+
+def _cmd_fit(args) -> int:
+    from .outputs.atomic import check_targets, write_outputs
+    from .outputs.report import fit_to_json, format_fit_report, run_record
+
+    check_expression(args.model)
+    at = [check_frequency(parse_quantity(a, "Hz", "--at"), "--at") for a in args.at]
+    if args.curve_band and not args.touchstone:
+        raise InputError("--curve-band sets the frequencies of the --touchstone export; "
+                         "give --touchstone too")
+    if args.curve_band:
+        _curve_band(args.curve_band)
+    if args.touchstone and Path(args.touchstone).suffix.lower() not in (".s1p", ".s2p"):
+        raise OutputError(f"--touchstone {args.touchstone}: name the file .s1p (reflection) or .s2p "
+                          f"(through line)")
+    if args.touchstone and Path(args.touchstone).suffix.lower() == ".s2p" and not args.through:
+        raise InputError(f"--touchstone {args.touchstone}: a .s2p export needs --through series or shunt "
+                         f"(how the part sits in the line); or name it .s1p for the reflection")
+    constraints = _constraints(args)
+    limits = budget_inputs_from_args(args)
+    check_targets(_fit_targets(args), [args.file, *_standard_files(args),
+                                       *([args.accuracy_table] if args.accuracy_table else [])])
+    if args.plot_dir and Path(args.plot_dir).exists() and not Path(args.plot_dir).is_dir():
+        raise OutputError(f"--plot-dir {args.plot_dir}: is a file, not a folder; choose a folder name")
+    waveform, drive_inputs = _drive_waveform_from_args(args, "drive-")  # read before the fit: errors first
+    measurement, inputs = load_from_args(args)
+    if args.accuracy_table:
+        inputs.append(args.accuracy_table)
+    with work_budget(_finite_positive(args.max_time, "--max-time"),
+                     _finite_positive(args.max_evaluations, "--max-evaluations")):
+        selection, result, design, budget, drive = _fit_work(args, measurement, constraints, limits, at,
+                                                              waveform)
     inputs += drive_inputs
     record = run_record(args, inputs, __version__)
 
@@ -795,6 +814,12 @@ def build_parser() -> argparse.ArgumentParser:
                             "is not trustworthy (default), for every parameter, or none")
     model.add_argument("--jobs", type=int, default=None, metavar="N",
                        help="processes for --model auto on large files (default: the core count)")
+    model.add_argument("--max-time", type=float, default=DEFAULT_MAX_TIME, metavar="SECONDS",
+                       help="stop a fit that runs longer, with nothing written "
+                            f"(default {DEFAULT_MAX_TIME:g})")
+    model.add_argument("--max-evaluations", type=float, default=DEFAULT_MAX_EVALUATIONS, metavar="N",
+                       help="stop a fit after this many model evaluations (impedance at one frequency; "
+                            f"default {DEFAULT_MAX_EVALUATIONS:.0e})")
     _add_budget_options(fitp)
     out = fitp.add_argument_group("outputs")
     out.add_argument("--at", action="append", default=[], metavar="FREQ",

@@ -6,7 +6,7 @@ parameter and says what to do; ``cli.py`` turns them into one line on stderr and
 
 from __future__ import annotations
 
-__all__ = ["FitzError", "InputError", "ModelSyntaxError", "FitError", "OutputError"]
+__all__ = ["FitzError", "InputError", "ModelSyntaxError", "FitError", "WorkLimitError", "OutputError"]
 
 
 class FitzError(Exception):
@@ -45,6 +45,13 @@ def _excerpt(expression: str, column: int, width: int = 60) -> str:
 
 class FitError(FitzError):
     """A fit that cannot be attempted (e.g. more free parameters than data)."""
+
+    exit_code = 4
+
+
+class WorkLimitError(FitzError):
+    """A fit stopped at its work budget (time or model evaluations). Not a FitError: model selection
+    skips a candidate that cannot be fitted, but a budget stops the whole run."""
 
     exit_code = 4
 

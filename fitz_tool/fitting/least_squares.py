@@ -33,6 +33,7 @@ from .problem import FitProblem, decimated, problem_for
 from .resonances import resonance_intervals, resonance_starts
 from .scatter import FAR_ABOVE_SCATTER, scatter_sigma
 from .seeding import data_seed, global_search, refine_by_scans, search_ranges
+from .work import DEFAULT_MAX_EVALUATIONS, DEFAULT_MAX_TIME, work_budget
 
 __all__ = ["fit", "search", "judge", "Searched", "BOUND_DECADES", "SCATTER_FLAG", "far_above_scatter"]
 
@@ -97,7 +98,9 @@ def _boxes(circuit: Circuit, m: Measurement, free: tuple[str, ...],
 
 def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, float] | None = None,
         guesses: Mapping[str, float] | None = None,
-        bounds: Mapping[str, tuple[float, float]] | None = None, intervals: str = "flagged") -> FitResult:
+        bounds: Mapping[str, tuple[float, float]] | None = None, intervals: str = "flagged",
+        max_time: float | None = DEFAULT_MAX_TIME,
+        max_evaluations: int | None = DEFAULT_MAX_EVALUATIONS) -> FitResult:
     """Fit a circuit to a measurement with no starting values needed.
 
     Parameters
@@ -116,6 +119,9 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
         Which free parameters get a 68 % profile-likelihood interval: those whose first-order standard
         error is not trusted (at a bound, none, above 30 % of the value, correlation near 1; see
         :mod:`fitz_tool.assessment`), every one, or none (first-order errors only).
+    max_time, max_evaluations : float, int or None
+        Work budget of the whole fit: wall-clock seconds and model evaluations (impedance values at one
+        frequency), see :mod:`fitz_tool.fitting.work`; None for no limit.
 
     Returns
     -------
@@ -130,10 +136,13 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
         A fixed value, guess or bound names an unknown parameter or is outside its physical range.
     FitError
         More free parameters than residual entries (2 per point), or nothing left to fit.
+    WorkLimitError
+        The work budget ran out; the message says what to reduce.
     """
     if intervals not in INTERVAL_MODES:
         raise InputError(f"intervals={intervals!r}: use one of {', '.join(INTERVAL_MODES)}")
-    return judge(search(measurement, model, fixed=fixed, guesses=guesses, bounds=bounds), intervals)
+    with work_budget(max_time, max_evaluations):
+        return judge(search(measurement, model, fixed=fixed, guesses=guesses, bounds=bounds), intervals)
 
 
 def search(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, float] | None = None,

@@ -16,6 +16,7 @@ import numpy as np
 
 from ..circuit import Circuit
 from ..measurement import Measurement
+from .work import charge
 
 __all__ = ["FitProblem", "problem_for", "decimated", "BATCH_ELEMENTS"]
 
@@ -55,12 +56,14 @@ class FitProblem:
 
     def residual(self, x: np.ndarray) -> np.ndarray:
         """Stacked weighted residual [ln|Zm/Z| / sigma_lnmag, angle(Zm/Z) / sigma_phase] (length 2M)."""
+        charge(self.frequency.size)
         with np.errstate(all="ignore"):
             re, im = self._weighted(self.circuit.impedance(self.frequency, self.values(x)))
         return np.nan_to_num(np.concatenate([re, im]), nan=1e6, posinf=1e6, neginf=-1e6)
 
     def jacobian(self, x: np.ndarray) -> np.ndarray:
         """Exact Jacobian of :meth:`residual` with respect to the internal coordinates, shape (2M, k)."""
+        charge(self.frequency.size * max(1, len(self.free)))
         values = self.values(x)
         with np.errstate(all="ignore"):
             z, grads = self.circuit.impedance_gradient(self.frequency, values)
@@ -79,6 +82,7 @@ class FitProblem:
         with np.errstate(all="ignore"):
             for start in range(0, len(points), step):
                 chunk = points[start:start + step]
+                charge(len(chunk) * self.frequency.size)
                 z = self.circuit.impedance(self.frequency, self.values(chunk))
                 re, im = self._weighted(np.atleast_2d(z))
                 cost[start:start + step] = np.sum(re**2 + im**2, axis=-1)

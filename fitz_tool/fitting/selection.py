@@ -30,6 +30,7 @@ from ..presets import default_candidates, resolve_model
 from ..results import FitResult, ModelSelection, RankedModel
 from .assessment import INTERVAL_MODES
 from .least_squares import SCATTER_FLAG, Searched, judge, search
+from .work import budgeted
 
 __all__ = ["fit_auto", "is_adequate", "BIC_MARGIN"]
 
@@ -96,6 +97,7 @@ def _search_all(measurement: Measurement, expressions: list[str], constraints: t
     return results
 
 
+@budgeted
 def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, *,
              fixed: Mapping[str, float] | None = None, guesses: Mapping[str, float] | None = None,
              bounds: Mapping[str, tuple[float, float]] | None = None,
@@ -120,6 +122,8 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
     jobs : int, optional
         Processes for the candidates' searches (default: the core count); a pool is used only for sweeps of
         at least ``PARALLEL_POINTS`` points, where it pays for its start.
+    max_time, max_evaluations : float, int or None
+        Work budget of the whole selection, as for :func:`fitz_tool.fit` (:mod:`fitz_tool.fitting.work`).
 
     Returns
     -------
