@@ -89,6 +89,7 @@ _EXPORTS: dict[str, str] = {
     "InputError": "exceptions",
     "ModelSyntaxError": "exceptions",
     "FitError": "exceptions",
+    "WorkLimitError": "exceptions",
     "OutputError": "exceptions",
 }
 
