@@ -273,7 +273,7 @@ def _entry(name: str, label: str, value: float, unit: str, u_noise: float | None
 
 
 def uncertainty_budget(result: FitResult, inputs: BudgetInputs | None = None, at: Sequence[float] = (),
-                       *, monte_carlo: int = 0, seed: int | None = 0) -> Budget:
+                       *, monte_carlo: int = 0, seed: int | None = 0, nominal=None) -> Budget:
     """Uncertainty budget (GUM) of every fitted parameter and design value of ``result``.
 
     Parameters
@@ -288,6 +288,8 @@ def uncertainty_budget(result: FitResult, inputs: BudgetInputs | None = None, at
         Number of Monte Carlo draws for the JCGM 101 check (0: none).
     seed : int or None
         Seed of the Monte Carlo draws.
+    nominal : DesignValues, optional
+        ``design_values(result, at)`` when the caller has it already (computed here otherwise).
 
     Returns
     -------
@@ -299,7 +301,7 @@ def uncertainty_budget(result: FitResult, inputs: BudgetInputs | None = None, at
     sources = tuple(inputs.sources_for(m.frequency))
     problem, x0 = _problem(result)
     nu_a = math.inf if m.sigma_absolute else float(max(result.degrees_of_freedom, 1))
-    nominal = design_values(result, at)
+    nominal = design_values(result, at) if nominal is None else nominal
     items = design_items(nominal)
     p_signed: dict[str, list] = {n: [] for n in problem.free}
     d_signed: dict[str, list] = {n: [] for n in items}

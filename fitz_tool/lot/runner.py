@@ -4,7 +4,7 @@ assemble the table.
 The executor is anything with the ``concurrent.futures`` interface (``submit`` returning futures):
 a ``ProcessPoolExecutor`` (the default, ``workers`` processes), a Dask ``distributed.Client`` (``scheduler``
 address or a client passed in), or, with one worker, the parent process itself. Results come back to the
-parent, which alone writes the store (one transaction per result, as each arrives).
+parent, which alone writes the store (one transaction per task of several parts, as each arrives).
 
 With ``model="auto"`` every default candidate is fitted to every file, and one model is chosen for the
 whole lot, so the table's columns mean the same in every row (rule of :func:`choose_models`); with
@@ -31,7 +31,7 @@ from ..measurement import file_sha256
 from ..presets import resolve_model
 from ..units import parse_quantity
 from .inputs import LotItem
-from .job import PartJob, run_part
+from .job import PartJob, run_part, run_parts
 from .spec import Spec, parse_spec, split_design_name
 from .store import ResultStore, result_key
 from .table import known_names, lot_table
@@ -160,14 +160,48 @@ def _as_completed(executor, futures):
     return _futures_as_completed(futures)
 
 
-def _execute(jobs: Mapping[str, PartJob], on_result: Callable[[str, dict], None], workers: int,
+#: At most this many parts go to a worker in one task: fewer round trips, while a killed run loses little
+#: and the progress bar still moves.
+CHUNK_PARTS = 8
+
+
+def chunked(keys: Sequence[str], workers: int) -> list[list[str]]:
+    """Keys in tasks of several parts: about four tasks per worker or more, at most ``CHUNK_PARTS`` each."""
+    size = max(1, min(CHUNK_PARTS, len(keys) // (4 * max(1, workers))))
+    return [list(keys[i:i + size]) for i in range(0, len(keys), size)]
+
+
+def _process_pool(workers: int) -> ProcessPoolExecutor:
+    """A process pool whose workers have the fitting code imported.
+
+    With ``fork`` (where the platform has it and this process runs no other thread) a worker starts as a copy
+    of this process, imports done; otherwise a fork server imports them once for all workers.
+    """
+    import importlib
+    import multiprocessing
+    import threading
+
+    modules = ["fitz_tool.lot.job", "fitz_tool.cli", "fitz_tool.fitting.selection", "fitz_tool.derived",
+               "fitz_tool.outputs.report", "fitz_tool.budget"]
+    if "fork" in multiprocessing.get_all_start_methods() and threading.active_count() == 1:
+        for name in modules:
+            importlib.import_module(name)
+        context = multiprocessing.get_context("fork")
+    else:
+        context = multiprocessing.get_context("forkserver")
+        context.set_forkserver_preload(modules)
+    return ProcessPoolExecutor(max_workers=workers, mp_context=context)
+
+
+def _execute(jobs: Mapping[str, PartJob], on_results: Callable[[list[tuple[str, dict]]], None], workers: int,
              scheduler: str | None, executor: Executor | None) -> None:
-    """Run the jobs and hand each result to ``on_result(key, payload)`` as it arrives."""
+    """Run the jobs, several parts per task, and hand each task's results to ``on_results([(key, payload),
+    ...])`` as they arrive."""
     if not jobs:
         return
     if executor is None and scheduler is None and (workers <= 1 or len(jobs) == 1):
-        for key, job in jobs.items():
-            on_result(key, run_part(job))
+        for chunk in chunked(list(jobs), 1):
+            on_results([(key, run_part(jobs[key])) for key in chunk])
         return
     own = executor is None
     if own and scheduler is not None:
@@ -181,27 +215,24 @@ def _execute(jobs: Mapping[str, PartJob], on_result: Callable[[str, dict], None]
         except (OSError, TimeoutError) as exc:
             raise InputError(f"--scheduler {scheduler}: cannot reach the Dask scheduler ({exc})") from exc
     elif own:
-        import multiprocessing
-
-        context = multiprocessing.get_context("forkserver")
-        # the worker's imports are done once in the fork server, not in every worker
-        context.set_forkserver_preload(["fitz_tool.lot.job", "fitz_tool.fitting.selection",
-                                        "fitz_tool.derived", "fitz_tool.outputs.report", "fitz_tool.budget"])
-        executor = ProcessPoolExecutor(max_workers=min(workers, len(jobs)), mp_context=context)
+        executor = _process_pool(min(workers, len(jobs)))
     try:
         futures = {}
-        for key, job in jobs.items():
-            future = (executor.submit(run_part, job, pure=False) if _is_dask(executor)
-                      else executor.submit(run_part, job))
-            futures[future] = key
+        for chunk in chunked(list(jobs), workers):
+            batch = [jobs[key] for key in chunk]
+            future = (executor.submit(run_parts, batch, pure=False) if _is_dask(executor)
+                      else executor.submit(run_parts, batch))
+            futures[future] = chunk
         for future in _as_completed(executor, list(futures)):
+            chunk = futures[future]
             try:
-                payload = future.result()
-            except Exception as exc:  # a worker died or the cluster failed: an error row, retried next run
-                payload = {"status": "error", "retry": True, "elapsed_s": 0.0,
-                           "error": f"{jobs[futures[future]].file}: the worker fitting it failed "
-                                    f"({type(exc).__name__}: {exc}); run the lot again to retry"}
-            on_result(futures[future], payload)
+                payloads = future.result()
+            except Exception as exc:  # a worker died or the cluster failed: error rows, retried next run
+                payloads = [{"status": "error", "retry": True, "elapsed_s": 0.0,
+                             "error": f"{jobs[key].file}: the worker fitting it failed "
+                                      f"({type(exc).__name__}: {exc}); run the lot again to retry"}
+                            for key in chunk]
+            on_results(list(zip(chunk, payloads, strict=True)))
     finally:
         if own:
             if _is_dask(executor):
@@ -329,19 +360,23 @@ def run_lot(items: Sequence[LotItem], settings: LotSettings, *, store: str | Pat
         bar = _progress_bar(len(pending), progress)
         failures = 0
 
-        def on_result(key: str, payload: dict) -> None:
+        def on_results(results: list[tuple[str, dict]]) -> None:
             nonlocal failures
-            payloads[key] = payload
-            info = infos[key]
-            if db is not None and info["storable"] and not payload.get("retry"):
-                db.put(key, info["file"], info["sha256"], settings.model, info["options"], payload, run_id)
-            failures += payload["status"] != "ok"
+            rows = []
+            for key, payload in results:
+                payloads[key] = payload
+                info = infos[key]
+                if db is not None and info["storable"] and not payload.get("retry"):
+                    rows.append((key, info["file"], info["sha256"], settings.model, info["options"], payload))
+                failures += payload["status"] != "ok"
+            if db is not None:
+                db.put_many(rows, run_id)
             if bar is not None:
-                bar.update(1)
+                bar.update(len(results))
                 bar.set_postfix(failed=failures, refresh=False)
 
         try:
-            _execute(pending, on_result, workers or default_workers(), scheduler, executor)
+            _execute(pending, on_results, workers or default_workers(), scheduler, executor)
         finally:
             if bar is not None:
                 bar.close()
@@ -363,6 +398,7 @@ def _progress_bar(total: int, show: bool):
         return None
     from tqdm import tqdm
 
+    tqdm.monitor_interval = 0  # no monitor thread: the process pool may then start workers by fork
     return tqdm(total=total, unit="part", desc="fitting", file=sys.stderr, dynamic_ncols=True)
 
 

@@ -115,14 +115,23 @@ class ResultStore:
     def put(self, key: str, file: str, sha256: str, model: str, options: dict, payload: dict,
             run_id: int | None) -> None:
         """Write one computed result (replacing an older one of the same key) and log the fit."""
+        self.put_many([(key, file, sha256, model, options, payload)], run_id)
+
+    def put_many(self, rows: Iterable[tuple[str, str, str, str, dict, dict]], run_id: int | None) -> None:
+        """Write computed results ``(key, file, sha256, model, options, payload)`` in one transaction
+        (each replacing an older one of the same key) and log their fits."""
         now = _now()
-        self._write([
-            ("INSERT OR REPLACE INTO results (key, file, sha256, model, options, status, payload, run_id, "
-             "created, elapsed_s) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-             (key, file, sha256, model, json.dumps(options, sort_keys=True), payload["status"],
-              json.dumps(payload), run_id, now, payload.get("elapsed_s"))),
-            ("INSERT INTO fits (key, run_id, created) VALUES (?, ?, ?)", (key, run_id, now)),
-        ])
+        statements = []
+        for key, file, sha256, model, options, payload in rows:
+            statements += [
+                ("INSERT OR REPLACE INTO results (key, file, sha256, model, options, status, payload, "
+                 "run_id, created, elapsed_s) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                 (key, file, sha256, model, json.dumps(options, sort_keys=True), payload["status"],
+                  json.dumps(payload), run_id, now, payload.get("elapsed_s"))),
+                ("INSERT INTO fits (key, run_id, created) VALUES (?, ?, ?)", (key, run_id, now)),
+            ]
+        if statements:
+            self._write(statements)
 
     def get(self, key: str) -> dict | None:
         """The stored payload of a key, or None."""
