@@ -676,9 +676,11 @@ def _lot_report_outputs(result, stats, report: str | None, title: str) -> dict[s
 
 def _cmd_lot(args) -> int:
     from .lot import collect_files, lot_statistics, read_manifest, run_lot, table_from_store, write_table
+    from .lot.table import check_table_path
     from .outputs.atomic import write_outputs
     from .outputs.lot_report import format_lot_summary
 
+    check_table_path(args.table)
     if args.workers is not None and args.workers < 1:
         raise InputError(f"--workers {args.workers}: give 1 or more")
     if args.from_store:

@@ -155,3 +155,37 @@ def test_bad_manifests_are_refused_naming_the_row(tmp_path, capsys, manifest, me
     err = capsys.readouterr().err
     assert message in err and str(path) in err
     assert not (tmp_path / "t.csv").exists()
+
+
+def test_a_parquet_table_reads_back_equal_to_the_csv_table(tmp_path):
+    """The same lot written as CSV and as Parquet: pandas (pyarrow engine) reads the same rows back
+    (the CSV keeps 10 significant digits, so numbers agree to 1e-9 relative)."""
+    pytest.importorskip("pyarrow")
+    make_lot(tmp_path / "parts", n=3)
+    csv_table, parquet_table = tmp_path / "lot.csv", tmp_path / "lot.parquet"
+    store = tmp_path / "store.sqlite"
+    for table in (csv_table, parquet_table):
+        assert main(["lot", str(tmp_path / "parts"), "--model", MODEL, "--table", str(table),
+                     "--store", str(store), "--workers", "1"]) == 1
+    from_csv, from_parquet = pd.read_csv(csv_table), pd.read_parquet(parquet_table)
+    assert list(from_parquet.columns) == list(from_csv.columns)
+    assert list(from_parquet["status"]) == ["ok", "ok", "ok", "error", "error"]
+    numbers = [c for c in from_csv.columns if c.startswith("L1")]
+    assert numbers and np.allclose(from_parquet[numbers].to_numpy(float), from_csv[numbers].to_numpy(float),
+                                   rtol=1e-9, equal_nan=True)
+    assert from_parquet.loc[3, "error"] == from_csv.loc[3, "error"]
+
+
+def test_parquet_without_pyarrow_is_one_line_before_any_fit_and_writes_nothing(tmp_path, capsys,
+                                                                               monkeypatch):
+    import fitz_tool.lot.table as table_module
+
+    monkeypatch.setattr(table_module, "parquet_available", lambda: False)
+    make_lot(tmp_path / "parts", n=3)
+    table, store = tmp_path / "lot.parquet", tmp_path / "store.sqlite"
+    code = main(["lot", str(tmp_path / "parts"), "--model", MODEL, "--table", str(table),
+                 "--store", str(store), "--workers", "1"])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert code == 5, err
+    assert len(err) == 1 and str(table) in err[0] and "pyarrow" in err[0]
+    assert not table.exists() and not store.exists()  # refused before any part was fitted

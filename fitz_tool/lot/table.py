@@ -170,25 +170,41 @@ def lot_table(items: Sequence[Mapping], payloads: Mapping[str, Mapping], models:
     return table
 
 
-def write_table(table: pd.DataFrame, path: str | Path) -> bytes:
-    """The table as bytes for ``path``: CSV, or Parquet for a ``.parquet`` suffix (needs pyarrow).
+def parquet_available() -> bool:
+    """True when pyarrow (the Parquet writer pandas uses) can be imported."""
+    import importlib.util
+
+    return importlib.util.find_spec("pyarrow") is not None
+
+
+def check_table_path(path: str | Path) -> str:
+    """The table format for ``path`` (``"csv"`` or ``"parquet"``), checked before any part is fitted.
 
     Raises
     ------
+    InputError
+        A suffix other than .csv/.txt/.parquet.
     OutputError
         Parquet asked for without pyarrow installed.
     """
-    if Path(path).suffix.lower() == ".parquet":
-        try:
-            import pyarrow  # noqa: F401
-        except ImportError as exc:
+    suffix = Path(path).suffix.lower()
+    if suffix == ".parquet":
+        if not parquet_available():
             raise OutputError(f"{path}: writing Parquet needs pyarrow (pip install pyarrow); "
-                              "or give a .csv table") from exc
+                              "or give a .csv table")
+        return "parquet"
+    if suffix not in (".csv", ".txt", ""):
+        raise InputError(f"--table {path}: give a .csv (or .parquet) file")
+    return "csv"
+
+
+def write_table(table: pd.DataFrame, path: str | Path) -> bytes:
+    """The table as bytes for ``path``: CSV, or Parquet for a ``.parquet`` suffix (see
+    :func:`check_table_path`)."""
+    if check_table_path(path) == "parquet":
         import io
 
         buffer = io.BytesIO()
         table.to_parquet(buffer, index=False)
         return buffer.getvalue()
-    if Path(path).suffix.lower() not in (".csv", ".txt", ""):
-        raise InputError(f"--table {path}: give a .csv (or .parquet) file")
     return table.to_csv(index=False, float_format="%.10g").encode("utf-8")
