@@ -11,7 +11,8 @@ instrument).
 Rules, in order:
 
 1. ``--map ROLE=HEADER`` (header as written, case and surrounding spaces ignored, or ``#N`` for the N-th
-   column) wins and takes that column out of automatic recognition.
+   column) wins and takes that column out of automatic recognition. ``--map ROLE='HEADER (UNIT)'`` also
+   states the unit of a column whose header states none or one not understood.
 2. Each header gives a role when its name and unit say it unambiguously. A lone magnitude that names no
    subject (``mag``, ``Magnitude``) beside a phase is |Z| in ohm when no column of the file names a voltage,
    current or ratio and its unit is not V, A or dB; this assumption is a warning.
@@ -25,12 +26,13 @@ Rules, in order:
 from __future__ import annotations
 
 import dataclasses
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 from ..exceptions import InputError
 from .forms import INPUT_FORMS
-from .headers import LCR, HeaderInfo, parse_header
+from .headers import LCR, HeaderInfo, parse_header, parse_unit
 
 __all__ = ["ROLES", "FORMS", "UNCERTAINTY_ROLES", "ColumnPlan", "plan_columns"]
 
@@ -133,6 +135,37 @@ def _find(headers: Sequence[str], wanted: str, role: str, where: str) -> int:
                              f"one by position instead, e.g. --map {role}=#{hits[0] + 1}")
     found = ", ".join(repr(h) for h in headers)
     raise InputError(f"{where}: --map {role}={wanted!r}: no such column; headers found: {found}")
+
+
+_MAPPED_UNIT = re.compile(r"^(?P<header>.*\S)\s*[(\[](?P<unit>[^()\[\]]+)[)\]]\s*$")
+
+
+def _find_mapped(headers: Sequence[str], infos: list[HeaderInfo], wanted: str, role: str,
+                 where: str) -> tuple[HeaderInfo, str]:
+    """The column ``--map ROLE=HEADER`` names, and the step in words.
+
+    ``HEADER (UNIT)`` or ``#N [UNIT]`` names a column whose header states no unit, or one not understood
+    (``--map frequency='Freq swept (kHz)'``), and states its unit; a header that states a unit keeps it.
+    """
+    try:
+        index = _find(headers, wanted, role, where)
+    except InputError as missing:
+        match = _MAPPED_UNIT.match(wanted.strip())
+        if match is None or parse_unit(match["unit"]) is None:
+            raise
+        try:
+            index = _find(headers, match["header"], role, where)
+        except InputError:
+            raise missing from None
+        info = infos[index]
+        if info.unit_text and info.unit_known:
+            raise InputError(f"{where}: --map {role}={wanted!r}: column {info.header!r} already states its "
+                             f"unit {info.unit_text!r}; name it as written, --map {role}='{info.header}'"
+                             ) from None
+        stated = parse_header(f"{info.header} [{match['unit'].strip()}]", index)
+        info = dataclasses.replace(stated, header=info.header, unit_known=True)
+        return info, f"column {info.header!r} is {role} (--map), in {info.unit_text} as the --map states"
+    return infos[index], f"column {headers[index]!r} is {role} (--map)"
 
 
 def _resolve_phases(infos: list[HeaderInfo], taken: set[int], steps: list[str]) -> list[HeaderInfo]:
@@ -246,11 +279,11 @@ def plan_columns(headers: Sequence[str], column_map: Mapping[str, str], where: s
     for role, wanted in column_map.items():
         if role not in ROLES:
             raise InputError(f"{where}: --map {role}=...: unknown role; roles are {', '.join(ROLES)}")
-        index = _find(headers, wanted, role, where)
-        if any(m.index == index for m in mapped.values()):
-            raise InputError(f"{where}: --map names column {headers[index]!r} for two roles")
-        mapped[role] = infos[index]
-        steps.append(f"column {headers[index]!r} is {role} (--map)")
+        info, step = _find_mapped(headers, infos, wanted, role, where)
+        if any(m.index == info.index for m in mapped.values()):
+            raise InputError(f"{where}: --map names column {info.header!r} for two roles")
+        mapped[role] = info
+        steps.append(step)
     taken = {m.index for m in mapped.values()}
     warnings: list[str] = []
     stated = [i for i in infos if i.uncertainty]

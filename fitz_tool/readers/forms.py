@@ -25,6 +25,7 @@ amplitude noise and absolute phase noise pass through unchanged and no per-point
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
@@ -94,9 +95,11 @@ def understood(role: str) -> str:
 def refuse_unknown_unit(role: str, info: HeaderInfo, where: str) -> None:
     """Raise for a column used for ``role`` whose header states a unit fitz_tool does not understand."""
     if not info.unit_known:
+        bracketed = re.search(r"[(\[{][^)\]}]*" + re.escape(info.unit_text), info.header)
+        hint = (" or name another column with --map" if bracketed else
+                f"; if {info.unit_text!r} is not a unit, state the unit: --map {role}='{info.header} (UNIT)'")
         raise InputError(f"{where}: column {info.header!r}: unit {info.unit_text!r} is not understood (for "
-                         f"{role}: {understood(role)}); export in one of those units or name another "
-                         f"column with --map")
+                         f"{role}: {understood(role)}); export in one of those units{hint}")
 
 
 def _level_to_amplitude(role: str, info: HeaderInfo, raw: np.ndarray, dbm_reference: float | None,

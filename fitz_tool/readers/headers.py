@@ -3,11 +3,18 @@
 A header splits into a *name* and a *unit* (``_split_unit``). The unit is taken from, in this order: the last
 bracket group that is not part of the name (``"Frequency (kHz)"``, ``"f [MHz]"``, ``"V(DUT) (mV rms)"``,
 nested ``"Voltage [mV(rms)]"``), a ``/unit`` suffix (``"Frequency/Hz"``), or the last one to three words after
-a space or underscore (``"freq_hz"``, ``"V mV pp"``, ``"Shunt voltage_V"``). The unit grammar is
-``units.read_unit`` (SI prefixes on Hz, rad/s, V, A, ohm, F, H; deg, rad, %, dB, dBV/dBA levels, dBm, dBOhm;
-an amplitude convention before or after). A bracketed word that is neither a unit nor part of a name
-(``"(furlongs)"``) is kept as a unit *not understood*: a column used for a role is then refused, never read
-in an assumed unit. ``F`` and ``H`` count only in capitals (``f`` is a frequency, ``h`` a transfer function).
+a space or underscore (``"freq_hz"``, ``"V mV pp"``, ``"Shunt voltage_V"``, past trailing qualifiers and
+labels: ``"Voltage mV raw"``, ``"Frequency_Hz_1"``). The unit grammar is ``units.read_unit`` (SI prefixes on
+Hz, rad/s, V, A, ohm, F, H; deg, rad, %, dB, dBV/dBA levels, dBm, dBOhm; an amplitude convention before or
+after). ``F`` and ``H`` count only in capitals (``f`` is a frequency, ``h`` a transfer function).
+
+Read right or refuse: a unit fitz_tool does not understand is kept as a unit *not understood*, and a column
+used for a role is then refused, never read in an assumed unit. That is a bracketed word that is neither a
+unit nor part of a name (``"(furlongs)"``), and, when the header names no base unit, a word ending the name
+after a space or underscore that is neither a name word (the word lists below), a qualifier
+(``QUALIFIERS``: ``"Freq swept"``, ``"Phase shift"``, ``"|Z| real part"``), nor a number or channel label
+(``"Trace 1 Magnitude"``, ``"Voltage Ch B"``, ``"S21"``): ``"Frequency furlongs"``, ``"Voltage_bananas pp"``,
+``"Current zorks 2"``. A single letter after a space is a channel label (``"Phase V"``).
 
 The name gives a *kind* (frequency, amplitude, phase, real, imaginary, or one of the equivalent-circuit
 readings of an LCR meter: Cs, Ls, Cp, Lp, Rp, D, Q) and a *subject* (voltage across the part, current,
@@ -43,6 +50,15 @@ RATIO = {"gain", "ratio", "h", "transfer", "tf"}
 LCR = {"cs": "c_series", "ls": "l_series", "cp": "c_parallel", "lp": "l_parallel", "rp": "r_parallel",
        "d": "dissipation", "df": "dissipation", "q": "quality"}
 FILLER = {"of", "the", "at", "in", "measured", "meas", "value", "val", "data", "mean", "avg", "average"}
+#: Words that qualify a quantity in instrument exports and may end a header without being a unit
+#: (``"Freq swept"``, ``"|Z| real part"``, ``"Phase shift"``, ``"Voltage DUT raw"``, ``"|Z| sigma"``).
+QUALIFIERS = {"part", "component", "comp", "difference", "diff", "delta", "shift", "lag", "lead", "raw",
+              "corrected", "corr", "uncorrected", "calibrated", "cal", "reading", "result", "swept", "sweep",
+              "stimulus", "stim", "source", "src", "actual", "act", "nominal", "nom", "response", "resp",
+              "input", "output", "out", "ref", "reference", "signal", "sig", "trace", "trc", "marker", "mkr",
+              "ch", "chan", "channel", "median", "smoothed", "filtered", "fundamental", "fund", "linear",
+              "lin", "total", "through", "thru", "factor", "sigma", "std", "stdev", "stddev", "dev", "unc",
+              "uncertainty"}
 _COMPOUNDS = {  # single tokens that carry subject and convention, e.g. "Vpp"
     "vpp": ("voltage", "pp"), "vrms": ("voltage", "rms"), "vpk": ("voltage", "peak"),
     "vpeak": ("voltage", "peak"), "ipp": ("current", "pp"), "irms": ("current", "rms"),
@@ -133,14 +149,21 @@ _FUNCTIONS = {"v", "i", "u", "z", "x", "r", "re", "im", "real", "imag", "abs", "
               "phase", "sigma", "σ", "std", "unc", "db", "vm", "vp", "vr", "vi", "vdb", "ip", "ir", "ii",
               "idb", "cph", "ch", "channel", "input", "trace", "tr"}
 _CHANNEL_WORDS = {"ch", "chan", "channel", "input", "in", "trace", "tr"}
+_LABEL = re.compile(r"#?[a-z]{0,3}\d+[a-z]?")
 
 
 def _is_name_text(text: str) -> bool:
-    """Whether bracketed text reads as part of a name (``DUT``, ``Ch1``, ``V-I``, ``shunt``), not a unit."""
+    """Whether text reads as part of a name (``DUT``, ``Ch1``, ``V-I``, ``shunt``, ``raw``), not a unit."""
     tokens, group, _ = _tokens(text)
     if not tokens:
         return group is not None or bool(re.fullmatch(r"[\s|'\-+]*", text))
-    return all(t in _KNOWN or t.rstrip("0123456789") in VOLTAGE | CURRENT or t.isdigit() for t in tokens)
+    return all(t in _KNOWN or t in QUALIFIERS or t.rstrip("0123456789") in VOLTAGE | CURRENT or t.isdigit()
+               for t in tokens)
+
+
+def _is_label(word: str) -> bool:
+    """A number or channel/trace label (``1``, ``#2``, ``Ch1``, ``tr2``, ``S21``, ``2a``): never a unit."""
+    return bool(_LABEL.fullmatch(word.lower()))
 
 
 def _groups(text: str) -> list[tuple[int, int, bool]]:
@@ -158,16 +181,8 @@ def _groups(text: str) -> list[tuple[int, int, bool]]:
     return groups
 
 
-def _split_unit(text: str) -> tuple[str, str, bool]:
-    """Split a header into (name, unit text, whether the unit is understood).
-
-    A unit stands in the last bracket group that is not part of the name (``"Frequency (kHz)"``,
-    ``"V [mV(rms)]"``), after a ``/`` (``"Frequency/Hz"``), or in the last one to three words after a space or
-    underscore (``"V mV pp"``, ``"Shunt voltage_V"``). A bracket group that is neither a unit fitz_tool
-    understands nor part of a name (``"(furlongs)"``, ``"[rpm]"``) is returned as a unit not understood, as
-    is an unknown last word after an underscore (``"freq_furlongs"``): the caller refuses it if the column
-    is used.
-    """
+def _bracket_unit(text: str) -> tuple[str, str, bool] | None:
+    """The unit in the last bracket group that is not part of the name, as (name, unit, understood)."""
     for start, end, attached in reversed(_groups(text)):
         content = text[start + 1:end - 1].strip()
         name = (text[:start] + " " + text[end:]).strip()
@@ -178,27 +193,96 @@ def _split_unit(text: str) -> tuple[str, str, bool]:
                                       and before[0].lower() in _FUNCTIONS):
             continue
         return name, content, False
-    if "/" in text:
+    return None
+
+
+def _name_end(words: list[str]) -> int:
+    """How many words remain once trailing qualifiers, name words and labels are passed over (at least 1).
+
+    ``["Voltage", "mV", "raw"]`` -> 2, ``["Frequency", "Hz", "avg"]`` -> 2. A word that reads as a unit
+    (``"V"``, ``"Amp"``) or an amplitude convention (``"pp"``) is never passed over.
+    """
+    end = len(words)
+    while end > 1:
+        word = words[end - 1].lower()
+        named = word in QUALIFIERS | FILLER or (word in _KNOWN and word not in _CONVENTIONS)
+        if not (_is_label(word) or (named and parse_unit(word) is None)):
+            break
+        end -= 1
+    return end
+
+
+def _word_unit(text: str) -> tuple[str, str, bool]:
+    """The unit in the last one to three words after a space or underscore, as (name, unit, understood).
+
+    Trailing qualifiers, name words and labels are passed over first (``"Voltage mV raw"`` and
+    ``"Ch1 mV Amplitude"`` are in mV). A single letter after a space is a channel label, not a unit
+    (``"Phase V"``, ``"Voltage A"``).
+    """
+    tokens = re.split(r"([\s_]+)", text.strip())
+    words, separators = tokens[0::2], tokens[1::2]
+    end = _name_end(words)
+    for size in (3, 2, 1):
+        if end <= size:
+            continue
+        suffix = words[end - size:end]
+        if len(suffix[0]) == 1 and ("_" not in separators[end - size - 1]
+                                    or words[end - size - 1].lower() in _CHANNEL_WORDS):
+            continue
+        if parse_unit(" ".join(suffix)) is not None:
+            name = "".join(tokens[:2 * (end - size) - 1] + tokens[2 * end - 1:])
+            return re.sub(r"^[\s_]+|[\s_]+$", "", name), " ".join(suffix), True
+    return text.strip(), "", True
+
+
+def _unknown_trailing_word(name: str) -> tuple[str, str] | None:
+    """The word ending a name that is neither a name word, a qualifier nor a label: (name without it, word).
+
+    ``"Frequency furlongs"`` -> ("Frequency", "furlongs"); ``"Phase of Z"``, ``"Trace 1 Magnitude"``,
+    ``"Freq swept"``, ``"Voltage Ch A"`` -> None. Qualifiers and labels at the end are passed over
+    (``"Current zorks 2"`` -> "zorks"); the first word is always the name.
+    """
+    tokens = re.split(r"([\s_]+)", name.strip())
+    words = tokens[0::2]
+    end = _name_end(words)
+    while end > 2 and len(words[end - 1]) == 1:  # a channel letter ("Voltage furlongs B")
+        end = _name_end(words[:end - 1])
+    if end < 2:
+        return None
+    word, before = words[end - 1], words[end - 2].lower()
+    if len(word) == 1 or before in _CHANNEL_WORDS or _is_name_text(word):
+        return None
+    rest = "".join(tokens[:2 * (end - 1) - 1] + tokens[2 * end - 1:])
+    return re.sub(r"^[\s_]+|[\s_]+$", "", rest), word
+
+
+def _split_unit(text: str) -> tuple[str, str, bool]:
+    """Split a header into (name, unit text, whether the unit is understood).
+
+    A unit stands in the last bracket group that is not part of the name (``"Frequency (kHz)"``,
+    ``"V [mV(rms)]"``), after a ``/`` (``"Frequency/Hz"``), or in the last one to three words after a space or
+    underscore (``"V mV pp"``, ``"Shunt voltage_V"``). A bracket group that is neither a unit fitz_tool
+    understands nor part of a name (``"(furlongs)"``, ``"[rpm]"``) is returned as a unit not understood.
+    When no unit names a base unit (none at all, or only a convention such as ``"(rms)"``), the last word of
+    the name must be a name word (``FREQ``, ``PHASE``... ``FILLER``), a qualifier (``QUALIFIERS``) or a
+    label (a number, ``Ch1``); any other (``"Frequency furlongs"``, ``"Voltage_bananas pp"``) is returned as
+    a unit not understood. The caller refuses a unit not understood if the column is used.
+    """
+    found = _bracket_unit(text)
+    if found is None and "/" in text:
         left, right = text.rsplit("/", 1)
         last = re.split(r"[\s_]+", left.strip())[-1] if left.strip() else ""
         unit = parse_unit(right)
         if last and unit is not None and unit[1] and (len(last) > 1 or parse_unit(text) is None):
-            return left.strip(), right.strip(), True
-    tokens = re.split(r"([\s_]+)", text.strip())
-    words, separators = tokens[0::2], tokens[1::2]
-    for size in (3, 2, 1):
-        if len(words) <= size:
-            continue
-        suffix = words[-size:]
-        if len(suffix[0]) == 1 and ("_" not in separators[-size]
-                                    or words[-size - 1].lower() in _CHANNEL_WORDS):
-            continue
-        if parse_unit(" ".join(suffix)) is not None:
-            return "".join(tokens[:2 * (len(words) - size) - 1]).strip(), " ".join(suffix), True
-    if (len(words) >= 2 and "_" in separators[-1] and len(words[-1]) >= 2 and words[-1].isalpha()
-            and words[-2].lower() not in _CHANNEL_WORDS and not _is_name_text(words[-1])):
-        return "".join(tokens[:-2]).strip(), words[-1], False
-    return text.strip(), "", True
+            found = left.strip(), right.strip(), True
+    if found is None:
+        found = _word_unit(text)
+    name, unit_text, known = found
+    if known and not (unit_text and parse_unit(unit_text)[1]):
+        trailing = _unknown_trailing_word(name)
+        if trailing is not None:
+            return trailing[0], trailing[1], False
+    return name, unit_text, known
 
 
 def _tokens(name: str) -> tuple[list[str], str | None, bool]:
