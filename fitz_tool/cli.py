@@ -17,7 +17,7 @@ import warnings
 from collections.abc import Sequence
 from pathlib import Path
 
-from . import __version__
+from . import __version__, progress
 from .exceptions import FitzError, InputError, ModelSyntaxError, OutputError
 from .fitting.work import DEFAULT_MAX_EVALUATIONS, DEFAULT_MAX_TIME, work_budget
 from .limits import check_expression, check_frequency, check_resistance, check_skew
@@ -256,15 +256,6 @@ def _wrote(paths, args) -> None:
             _say(f"wrote {path}", sys.stderr)
 
 
-def _progress_bar(args, total: int, what: str):
-    """A tqdm bar on stderr, or None when stderr is not a terminal or with ``--quiet``."""
-    if getattr(args, "quiet", False) or not sys.stderr.isatty():
-        return None
-    from tqdm import tqdm
-
-    return tqdm(total=total, desc=what, unit="model", file=sys.stderr, leave=False)
-
-
 def _figure_bytes(figure, fmt: str) -> bytes:
     import matplotlib.pyplot as plt
 
@@ -420,21 +411,15 @@ def _fit_work(args, measurement, constraints, limits, at, waveform):
             raise InputError(f"--jobs {args.jobs}: give at least 1")
         from .presets import default_candidates
 
-        bar = _progress_bar(args, len(default_candidates()), "ranking models")
+        with progress.bar("ranking models", len(default_candidates()), "model") as bar:
+            started: list[str] = []
 
-        started: list[str] = []
-
-        def step(expression: str) -> None:  # called as each candidate's fit starts
-            if bar is not None:
+            def step(expression: str) -> None:  # called as each candidate's fit starts
                 bar.update(1 if started else 0)
                 bar.set_postfix_str(expression)
-            started.append(expression)
+                started.append(expression)
 
-        try:
             selection = fit_auto(measurement, **constraints, jobs=args.jobs, progress=step)
-        finally:
-            if bar is not None:
-                bar.close()
         result = selection.chosen
     else:
         circuit = resolve_model(args.model)
@@ -699,7 +684,8 @@ def _cmd_lot(args) -> int:
         store = args.store or str(Path(args.table).resolve().parent / "fitz_results.sqlite")
         inputs = [i.file for i in items] + ([args.manifest] if args.manifest else []) + [store]
         result = run_lot(items, _lot_settings(args, args.model), store=store, refit=args.refit,
-                         workers=args.workers, scheduler=args.scheduler, progress=sys.stderr.isatty())
+                         workers=args.workers, scheduler=args.scheduler,
+                         progress=progress.wanted(getattr(args, "quiet", False)))
     stats = lot_statistics(result.table, result.specs)
     outputs = {args.table: write_table(result.table, args.table)}
     outputs.update(_lot_report_outputs(result, stats, args.report, "Lot report"))
@@ -921,7 +907,8 @@ def refuse_repeated_options(argv: Sequence[str], parser: argparse.ArgumentParser
 
 def _run(args) -> int:
     try:
-        return args.handler(args)
+        with progress.shown(progress.wanted(getattr(args, "quiet", False))):  # bars only on a terminal
+            return args.handler(args)
     except RecursionError:
         raise ModelSyntaxError("input nested too deeply to follow; simplify it") from None
 

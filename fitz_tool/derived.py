@@ -22,6 +22,7 @@ covariance in SI units (or the covariance of ``result.uvars`` when the fit gives
 
 from __future__ import annotations
 
+import cmath
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -262,13 +263,22 @@ def _find_resonances(result: FitResult, propagation: _Propagation) -> list[Reson
     grid = np.geomspace(low, high, 4000)
     values = result.values
 
+    def impedance_at(log_f: float) -> complex:
+        with np.errstate(all="ignore"):
+            return complex(result.circuit.impedance(np.array([math.exp(log_f)]), values)[0])
+
     def reactance(log_f: float) -> float:
-        return float(result.circuit.impedance(np.array([math.exp(log_f)]), values)[0].imag)
+        x = impedance_at(log_f).imag
+        return x if math.isfinite(x) else 0.0  # on a pole of Z (lossless loop): X changes sign
 
     x = result.circuit.impedance(grid, values).imag
     found: list[Resonance] = []
     for k in np.nonzero(np.sign(x[:-1]) * np.sign(x[1:]) < 0)[0]:
         log_f0 = brentq(reactance, math.log(grid[k]), math.log(grid[k + 1]), xtol=1e-15, rtol=1e-15)
+        for _ in range(4):  # on the pole itself (Z infinite): its neighbour is finite
+            if cmath.isfinite(impedance_at(log_f0)):
+                break
+            log_f0 = math.nextafter(log_f0, math.inf)
         f0 = math.exp(log_f0)
         kind = "series" if x[k + 1] > x[k] else "parallel"
         z, grads = result.circuit.impedance_gradient(np.array([f0]), values)

@@ -107,7 +107,8 @@ def _crossing(f: np.ndarray, z: np.ndarray, a: int, b: int, series: bool) -> tup
 def summarize(measurement: Measurement) -> InspectionSummary:
     """Points, ranges, inductive/capacitive bands, apparent resonances and a Lin-KK check of a measurement.
 
-    The Lin-KK check (``kramers_kronig.lin_kk``, a few ms) is skipped with the reason recorded when the
+    The Lin-KK check (``kramers_kronig.lin_kk``, a few ms; a long sweep is checked on an evenly spaced
+    subset, said in its sentence) is skipped with the reason recorded when the
     measurement is too short for it.
 
     Parameters
@@ -212,11 +213,12 @@ def kramers_kronig_sentence(summary: InspectionSummary) -> str:
         return f"not run ({summary.kramers_kronig_skipped})"
     rms = f"{100 * kk.rms_residual:#.2g}".rstrip(".") + " % of |Z|"
     noise = (" (" + f"{100 * kk.noise_level:#.2g}".rstrip(".") + " %)") if np.isfinite(kk.noise_level) else ""
+    checked = f" ({kk.decimation})" if kk.decimation else ""
     if kk.consistent:
-        return f"consistent with a causal, linear part: residual {rms}, at the noise level{noise}"
+        return f"consistent with a causal, linear part: residual {rms}, at the noise level{noise}{checked}"
     advice = summary.kramers_kronig_advice or kramers_kronig_advice(kk, summary.reflection,
                                                                     len(summary.resonances))
-    return f"residual {rms}, above the noise level{noise}: {advice}"
+    return f"residual {rms}, above the noise level{noise}{checked}: {advice}"
 
 
 def format_summary(summary: InspectionSummary, measurement: Measurement, verbose: bool = False) -> str:

@@ -31,6 +31,9 @@ paper extends the range, from memory, by how much we do not recall). Our choice 
 the admittance of a choke whose L / R_s corner lies below the band is not followed; a full decade lets
 elements far outside the band act as polynomial terms that absorb a channel delay.
 
+A sweep of more than ``MAX_POINTS`` points is checked on that many points spaced evenly through it (the
+cost of the test grows as N M^2 for each element count tried); the result says so in words.
+
 Known limits (see the tests): a part whose admittance AND impedance both need a pole far off the time
 constant grid with a large weight (a bead with a small series R_dc) makes mu collapse before the fit is
 good, a false "not consistent"; and a delay that is causal in the representation chosen (current channel
@@ -49,7 +52,7 @@ from .exceptions import InputError
 from .measurement import Measurement
 
 __all__ = ["KramersKronigResult", "lin_kk", "time_constants", "RMS_FLOOR", "NOISE_FACTOR", "TAU_EXTENSION",
-           "MIN_POINTS"]
+           "MIN_POINTS", "MAX_POINTS"]
 
 #: Relative residual RMS below which data counts as consistent whatever the noise estimate says: 0.05 %
 #: of |Z|, below the basic accuracy of bench impedance instruments (about 0.05 % to 0.1 %; common practice,
@@ -67,6 +70,12 @@ TAU_EXTENSION = 10 ** 0.5
 #: Fewest points the test runs on.
 MIN_POINTS = 8
 
+#: Most points the test runs on: a longer sweep is checked on this many points spaced evenly through it
+#: (every k-th point, k about N / MAX_POINTS). White noise stays white on such a copy, structure of more
+#: than a few points' width stays, and the advisory check of a million-point sweep takes a fraction of a
+#: second instead of several (our choice).
+MAX_POINTS = 20_000
+
 
 @dataclass(frozen=True, eq=False)
 class KramersKronigResult:
@@ -79,7 +88,8 @@ class KramersKronigResult:
     mu : float
         The mu figure at that M (1: no negative elements; falls as over-fitting starts).
     residual_real, residual_imag : ndarray of float
-        Re and Im of (Z - Z_fit) / |Z| per point (dimensionless, relative to |Z|).
+        Re and Im of (Z - Z_fit) / |Z| per point checked (dimensionless, relative to |Z|); the points
+        checked are all points, or ``points_used`` evenly spaced ones of a longer sweep.
     rms_residual : float
         RMS over both parts of all points (dimensionless).
     max_residual : float
@@ -95,6 +105,11 @@ class KramersKronigResult:
         sigmas when they are absolute, else estimated from point-to-point differences of the residuals.
     figures : str
         The figures of ``note`` without the verdict (residual RMS, limit, M, mu, representation).
+    points_used, points_total : int
+        Points the test ran on, of the measurement's points (fewer when the sweep had more than
+        ``MAX_POINTS``).
+    decimation : str
+        That in words ("checked on 20,000 of the 1,000,000 points, evenly spaced"), or "" for all points.
     """
 
     n_elements: int
@@ -108,6 +123,9 @@ class KramersKronigResult:
     representation: str = "impedance"
     noise_level: float = float("nan")
     figures: str = ""
+    points_used: int = 0
+    points_total: int = 0
+    decimation: str = ""
 
 
 @dataclass(frozen=True)
@@ -189,7 +207,7 @@ def _noise_level(measurement: Measurement, real: np.ndarray, imag: np.ndarray) -
 
 
 def lin_kk(measurement: Measurement, mu_threshold: float = 0.85,
-           max_elements: int | None = None) -> KramersKronigResult:
+           max_elements: int | None = None, max_points: int = MAX_POINTS) -> KramersKronigResult:
     """Kramers-Kronig consistency of a measurement by the linear Lin-KK test.
 
     Parameters
@@ -202,6 +220,8 @@ def lin_kk(measurement: Measurement, mu_threshold: float = 0.85,
     max_elements : int or None
         Cap on M; default ``N // 2 - 2`` (half the points, less the series terms) so the fit stays
         over-determined. The mu criterion normally stops well before.
+    max_points : int
+        A sweep of more points is checked on this many, spaced evenly through it (said in the result).
 
     Returns
     -------
@@ -220,6 +240,16 @@ def lin_kk(measurement: Measurement, mu_threshold: float = 0.85,
     z = measurement.impedance
     if np.any(z == 0):
         raise InputError(f"{where}: impedance is exactly 0 at some point; Lin-KK weights by 1/|Z|")
+    if max_points < MIN_POINTS:
+        raise InputError(f"lin_kk: max_points must be at least {MIN_POINTS}, got {max_points}")
+    decimation = ""
+    if n > max_points:
+        keep = np.zeros(n, dtype=bool)
+        keep[np.round(np.linspace(0, n - 1, int(max_points))).astype(int)] = True
+        decimation = f"checked on {int(keep.sum()):,} of the {n:,} points, evenly spaced through the sweep"
+        measurement = measurement.select(keep, f"Lin-KK: {decimation}")
+        z = measurement.impedance
+    total, n = n, len(measurement)
     cap = n // 2 - 2 if max_elements is None else int(max_elements)
     if cap < 1:
         raise InputError(f"{where}: max_elements must be at least 1, got {max_elements}")
@@ -265,9 +295,10 @@ def lin_kk(measurement: Measurement, mu_threshold: float = 0.85,
     figures = (f"residual RMS {100 * rms:.3g} % of |Z| "
                f"(limit {100 * limit:.3g} % = max({100 * RMS_FLOOR:g} %, {NOISE_FACTOR:g} x noise "
                f"{100 * noise:.3g} % {noise_source}); M = {fit.n_elements}, mu = {fit.mu:.2f}, "
-               f"fitted as {representation}")
+               f"fitted as {representation}" + (f"; {decimation}" if decimation else ""))
     note = f"{verdict}: {figures}"
     max_residual = float(max(np.max(np.abs(real)), np.max(np.abs(imag))))
     return KramersKronigResult(n_elements=fit.n_elements, mu=fit.mu, residual_real=real, residual_imag=imag,
                                rms_residual=rms, max_residual=max_residual, consistent=consistent, note=note,
-                               representation=representation, noise_level=noise, figures=figures)
+                               representation=representation, noise_level=noise, figures=figures,
+                               points_used=n, points_total=total, decimation=decimation)

@@ -247,3 +247,19 @@ def test_frequency_derivative_matches_finite_differences_with_a_cpe():
 def test_an_operating_frequency_must_be_positive(frequency):
     with pytest.raises(InputError, match="above 0"):
         design_values(synthetic_result("R1 + L1", {"R1": 1.0, "L1": 1e-6}), [frequency])
+
+
+def test_a_root_search_that_lands_on_the_pole_of_a_lossless_loop_still_gives_the_srf():
+    # Rs + (L1 || Cp) has no loss in its loop: X runs through a pole at the parallel resonance, and for these
+    # values (a Monte Carlo draw of the bundled choke) the root search evaluated Z exactly on that pole
+    from fitz_tool.readers import ReadOptions, read_measurement
+
+    f = read_measurement("sample_measurements/output_choke_scope.csv", ReadOptions(shunt=0.1)).frequency
+    values = {"Rs": 0.027017216573066445, "L1": 2.218244838625876e-05, "Cp": 1.2254568514141789e-11}
+    (res,) = design_values(synthetic_result(values=values, frequency=f)).resonances
+    # f0 = 1 / (2 pi sqrt(L C)) for a lossless L || C: common practice, no source
+    assert res.kind == "parallel"
+    assert res.frequency.value == pytest.approx(1 / (2 * math.pi * math.sqrt(values["L1"] * values["Cp"])),
+                                                rel=1e-12)
+    assert res.frequency.stderr is not None and math.isfinite(res.frequency.stderr)
+    assert res.quality is not None and res.quality.value == math.inf

@@ -187,3 +187,36 @@ def test_reflection_data_is_judged_in_units_of_its_own_per_point_sigmas():
     result = lin_kk(m)
     assert result.consistent, result.note
     assert "per-point sigmas" in result.note
+
+
+def _long_capacitor(points: int, seed: int = 5) -> tuple[np.ndarray, np.ndarray]:
+    """1 uF, 10 mohm ESR, 2 nH ESL: Z = R + j w L + 1 / (j w C) (common practice, no source), noise NOISE."""
+    f = np.geomspace(F_START, F_STOP, points)
+    jw = 2j * np.pi * f
+    rng = np.random.default_rng(seed)
+    z = 10e-3 + jw * 2e-9 + 1 / (jw * 1e-6)
+    return f, z * np.exp(NOISE * rng.standard_normal(points) + 1j * NOISE * rng.standard_normal(points))
+
+
+def test_a_long_sweep_is_checked_on_an_evenly_spaced_subset_with_the_same_verdict():
+    from fitz_tool.kramers_kronig import MAX_POINTS
+
+    f, z = _long_capacitor(5 * MAX_POINTS)
+    result = lin_kk(Measurement(f, z))
+    assert result.points_used == MAX_POINTS and result.points_total == 5 * MAX_POINTS
+    assert result.residual_real.shape == (MAX_POINTS,)
+    assert result.consistent and 0.7 * NOISE < result.rms_residual < 1.2 * NOISE, result.note
+    assert "checked on 20,000 of the 100,000 points" in result.decimation and result.decimation in result.note
+    # the same data checked whole (a smaller copy, so the whole check stays quick) gives the same figures
+    short_f, short_z = f[::10], z[::10]
+    whole = lin_kk(Measurement(short_f, short_z), max_points=short_f.size)
+    part = lin_kk(Measurement(short_f, short_z), max_points=short_f.size // 4)
+    assert whole.decimation == "" and whole.points_used == short_f.size
+    assert part.consistent == whole.consistent
+    assert part.rms_residual == pytest.approx(whole.rms_residual, rel=0.05)
+    # a 3 ns channel delay is still found on the subset (see the short-sweep test above)
+    delayed = lin_kk(Measurement(f, z * np.exp(2j * np.pi * f * 3e-9)))
+    assert not delayed.consistent and delayed.rms_residual > 10 * NOISE
+    # and the inspection sentence says that the check ran on a subset
+    m = Measurement(f, z)
+    assert "checked on 20,000 of the 100,000 points" in format_summary(summarize(m), m)

@@ -28,6 +28,7 @@ from scipy.optimize import least_squares
 from ..derived import design_values
 from ..exceptions import InputError
 from ..fitting.problem import FitProblem
+from ..progress import bar as progress_bar
 from ..results import FitResult
 from ..units import format_to_resolution
 from .combination import Budget, BudgetEntry, MonteCarloCheck, design_items, with_internal
@@ -101,27 +102,32 @@ def monte_carlo_check(budget: Budget, result: FitResult, problem: FitProblem, x0
     noise, _ = _noise_draws(result, problem, draws, rng)
     par: dict[str, list[float]] = {n: [] for n in budget.parameters}
     des: dict[str, list[float]] = {n: [] for n in budget.design}
-    for j in range(draws):
-        x = x0
-        if budget.sources:
-            shift = sum(s.shift(t) for s, t in zip(budget.sources, offsets[j], strict=True))
-            drawn = dataclasses.replace(problem, impedance=m.impedance * np.exp(shift))
-            with np.errstate(all="ignore"):
-                fitted = least_squares(drawn.residual, x0, jac=drawn.jacobian, method="lm", xtol=1e-12,
-                                       ftol=1e-12)
-            x = fitted.x if fitted.success else np.full_like(x0, np.nan)
-        extra = {n: float(noise[j, i]) for i, n in enumerate(problem.free)}
-        if not np.all(np.isfinite(x)):
-            for store in (par, des):
-                for n in store:
-                    store[n].append(math.nan)
-            continue
-        drawn_result = with_internal(result, problem, x, extra)
-        for n in par:
-            par[n].append(drawn_result.parameters[n].value)
-        items = design_items(design_values(drawn_result, at)) if des else {}
-        for n in des:
-            des[n].append(items[n].value if n in items else math.nan)
+    with progress_bar("Monte Carlo check", draws, "draw") as bar:
+        for j in range(draws):
+            bar.update()
+            x = x0
+            if budget.sources:
+                shift = sum(s.shift(t) for s, t in zip(budget.sources, offsets[j], strict=True))
+                drawn = dataclasses.replace(problem, impedance=m.impedance * np.exp(shift))
+                with np.errstate(all="ignore"):
+                    fitted = least_squares(drawn.residual, x0, jac=drawn.jacobian, method="lm", xtol=1e-12,
+                                           ftol=1e-12)
+                x = fitted.x if fitted.success else np.full_like(x0, np.nan)
+            extra = {n: float(noise[j, i]) for i, n in enumerate(problem.free)}
+            if not np.all(np.isfinite(x)):
+                for store in (par, des):
+                    for n in store:
+                        store[n].append(math.nan)
+                continue
+            drawn_result = with_internal(result, problem, x, extra)
+            for n in par:
+                par[n].append(drawn_result.parameters[n].value)
+            # a noise draw can take a parameter past 0 (a large standard error): no circuit, no design values
+            physical = all(problem.exponent[i] or drawn_result.parameters[n].value > 0
+                           for i, n in enumerate(problem.free))
+            items = design_items(design_values(drawn_result, at)) if des and physical else {}
+            for n in des:
+                des[n].append(items[n].value if n in items else math.nan)
 
     def attach(entries: dict[str, BudgetEntry], store: dict[str, list[float]]) -> dict[str, BudgetEntry]:
         return {n: dataclasses.replace(e, monte_carlo=_check(e, np.array(store[n]), draws))

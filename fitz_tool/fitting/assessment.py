@@ -27,6 +27,7 @@ import numpy as np
 from uncertainties import correlated_values, covariance_matrix
 
 from ..measurement import Measurement
+from ..progress import bar as progress_bar
 from ..results import FitResult, ParameterEstimate
 from ..units import format_quantity, format_to_resolution
 from .local import AT_BOUND_TOLERANCE
@@ -168,8 +169,9 @@ def _estimate(c: _Context, i: int, name: str, value: float) -> tuple[ParameterEs
         name, i, c.x, c.bounds, exponent, c.se_internal, c.uvars, c.at_bound, c.correlated))
     if wanted and c.threshold is not None:
         try:
-            profiled = profile_interval(c.problem, c.x, i, c.bounds, c.chi2, c.threshold,
-                                        c.se_internal.get(name))
+            with progress_bar(f"interval of {name}", None, " fits") as bar:
+                profiled = profile_interval(c.problem, c.x, i, c.bounds, c.chi2, c.threshold,
+                                            c.se_internal.get(name), on_fit=bar.update)
         except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
             interval_note = f"profile likelihood failed: {exc}"
         else:

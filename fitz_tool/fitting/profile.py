@@ -20,6 +20,7 @@ parameter on that side.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Protocol
 
@@ -76,8 +77,8 @@ class _Profile:
     """chi2 with coordinate ``index`` held at ``t``, minimised over the others (warm-started)."""
 
     def __init__(self, problem: Profiled, x_hat: np.ndarray, index: int, b_lo: np.ndarray,
-                 b_hi: np.ndarray) -> None:
-        self.problem, self.index = problem, index
+                 b_hi: np.ndarray, on_fit: Callable[[], object] | None = None) -> None:
+        self.problem, self.index, self.on_fit = problem, index, on_fit
         self.others = np.arange(x_hat.size) != index
         span = b_hi - b_lo
         self.lo, self.hi = b_lo[self.others] + 1e-9 * span[self.others], b_hi[self.others] - 1e-9 * span[
@@ -96,6 +97,8 @@ class _Profile:
 
     def _inner(self, t: float, start: np.ndarray) -> tuple[np.ndarray, float]:
         self.evaluations += 1
+        if self.on_fit is not None:
+            self.on_fit()
         out = least_squares(lambda y: self.problem.residual(self._full(y, t)),
                             np.clip(start, self.lo, self.hi),
                             jac=lambda y: self.problem.jacobian(self._full(y, t))[:, self.others],
@@ -144,7 +147,8 @@ def _edge(profile: _Profile, x0: float, direction: float, bound: float, step: fl
 
 
 def profile_interval(problem: Profiled, x_hat: np.ndarray, index: int, bounds: tuple[np.ndarray, np.ndarray],
-                     chi2_min: float, threshold: float, step: float | None = None) -> ProfileInterval:
+                     chi2_min: float, threshold: float, step: float | None = None,
+                     on_fit: Callable[[], object] | None = None) -> ProfileInterval:
     """Profile-likelihood interval of coordinate ``index`` where ``chi2_p - chi2_min <= threshold``.
 
     Parameters
@@ -165,6 +169,8 @@ def profile_interval(problem: Profiled, x_hat: np.ndarray, index: int, bounds: t
     step : float, optional
         First step from the estimate (internal units), e.g. the first-order standard error; default
         ``DEFAULT_STEP``.
+    on_fit : callable, optional
+        Called with no argument as each inner fit starts (e.g. a progress bar's ``update``).
 
     Returns
     -------
@@ -173,7 +179,7 @@ def profile_interval(problem: Profiled, x_hat: np.ndarray, index: int, bounds: t
     """
     x_hat = np.asarray(x_hat, dtype=float)
     b_lo, b_hi = (np.asarray(b, dtype=float) for b in bounds)
-    profile = _Profile(problem, x_hat, index, b_lo, b_hi)
+    profile = _Profile(problem, x_hat, index, b_lo, b_hi, on_fit)
     if step is None or not np.isfinite(step) or step <= 0:
         step = DEFAULT_STEP
     step = min(max(step, 1e-8), MAX_STEP)

@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import math
 import os
-import sys
 from collections.abc import Callable, Mapping, Sequence
 from concurrent.futures import Executor, ProcessPoolExecutor
 from concurrent.futures import as_completed as _futures_as_completed
@@ -29,6 +28,8 @@ from ..exceptions import InputError
 from ..fitting.selection import BIC_MARGIN
 from ..measurement import file_sha256
 from ..presets import resolve_model
+from ..progress import bar as progress_bar
+from ..progress import shown
 from ..units import parse_quantity
 from .inputs import LotItem
 from .job import PartJob, run_part, run_parts
@@ -333,7 +334,7 @@ def run_lot(items: Sequence[LotItem], settings: LotSettings, *, store: str | Pat
     executor : Executor, optional
         An executor to use instead (a ``ProcessPoolExecutor`` or a ``distributed.Client``).
     progress : bool
-        Show a progress bar on stderr (tqdm).
+        Show a progress bar on stderr (tqdm; the command line passes :func:`fitz_tool.progress.wanted`).
 
     Raises
     ------
@@ -357,7 +358,6 @@ def run_lot(items: Sequence[LotItem], settings: LotSettings, *, store: str | Pat
             if info["key"] not in payloads:
                 pending.setdefault(info["key"], job)
                 infos.setdefault(info["key"], info)
-        bar = _progress_bar(len(pending), progress)
         failures = 0
 
         def on_results(results: list[tuple[str, dict]]) -> None:
@@ -371,15 +371,12 @@ def run_lot(items: Sequence[LotItem], settings: LotSettings, *, store: str | Pat
                 failures += payload["status"] != "ok"
             if db is not None:
                 db.put_many(rows, run_id)
-            if bar is not None:
-                bar.update(len(results))
-                bar.set_postfix(failed=failures, refresh=False)
+            bar.update(len(results))
+            bar.set_postfix(failed=failures, refresh=False)
 
-        try:
+        with shown(progress), progress_bar("fitting", len(pending), "part", show=bool(pending),
+                                             leave=True) as bar:
             _execute(pending, on_results, workers or default_workers(), scheduler, executor)
-        finally:
-            if bar is not None:
-                bar.close()
         models, lot_model, note = choose_models(item_records, payloads, settings.is_auto,
                                                 settings.per_file_model)
         _check_spec_names(specs, payloads, models, at)
@@ -391,15 +388,6 @@ def run_lot(items: Sequence[LotItem], settings: LotSettings, *, store: str | Pat
             db.close()
     return LotResult(table, item_records, payloads, models, lot_model, note, specs, at,
                      fitted=len(pending), reused=reused, run_id=run_id)
-
-
-def _progress_bar(total: int, show: bool):
-    if not show or total == 0:
-        return None
-    from tqdm import tqdm
-
-    tqdm.monitor_interval = 0  # no monitor thread: the process pool may then start workers by fork
-    return tqdm(total=total, unit="part", desc="fitting", file=sys.stderr, dynamic_ncols=True)
 
 
 def table_from_store(store: str | Path, run_id: int | None = None,

@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import codecs
 import csv
+import os
 import re
 from dataclasses import dataclass
 
@@ -32,9 +33,10 @@ import numpy as np
 
 from ..exceptions import InputError
 from ..limits import OVERFLOW_MARKER, no_reading_as_nan
+from ..progress import bar as progress_bar
 from .headers import parse_unit
 
-__all__ = ["TextTable", "decode_bytes", "split_table", "parse_number", "numeric_column"]
+__all__ = ["TextTable", "decode_bytes", "split_table", "parse_number", "numeric_column", "LONG_FILE_LINES"]
 
 _NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
 _NUMBER_COMMA = re.compile(r"[+-]?(?:\d+(?:,\d*)?|,\d+)(?:[eE][+-]?\d+)?")
@@ -43,6 +45,9 @@ _THOUSANDS_COMMA = re.compile(r"[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?(?:[eE][+-]?\d+
 _MISSING = re.compile(r"(?i:nan|-nan|na|n/a|#n/a|none|null|-+|\*+|[+-]?inf(?:inity)?)?")  # inf: no reading
 _DELIMITERS = {"\t": "tab", ";": "semicolon", ",": "comma", " ": "spaces"}
 _COMMENT = ("#", "!", "//")
+#: A file of at least this many lines shows a progress bar while its rows are split (on a terminal).
+LONG_FILE_LINES = 100_000
+_PROGRESS_LINES = 50_000  # lines split between two updates of the bar
 
 
 @dataclass(frozen=True)
@@ -243,19 +248,23 @@ def split_table(text: str, encoding: str, where: str, headerless: bool = False) 
     elif header_index:
         notes.append(f"skipped {header_index} preamble line(s) above the header (line {header_index + 1})")
     rows, numbers, skipped = [], [], []
-    for k in range(header_index + 1, len(lines)):
-        line = lines[k].strip()
-        if not line or k < first:
-            continue
-        cells = _cells(line if delimiter == " " else lines[k], delimiter)  # a leading empty cell counts
-        if line.startswith(_COMMENT) or (len(cells) == 1 and not _is_numeric(cells[0])):
-            skipped.append(k + 1)
-            continue
-        if len(cells) > len(headers):
-            raise InputError(f"{where}: line {k + 1} has {len(cells)} cells but the header has "
-                             f"{len(headers)} columns")
-        rows.append(tuple(cells) + ("",) * (len(headers) - len(cells)))
-        numbers.append(k + 1)
+    with progress_bar(f"reading {os.path.basename(where)}", len(lines) - header_index - 1, "line",
+                      show=len(lines) >= LONG_FILE_LINES) as bar:
+        for start in range(header_index + 1, len(lines), _PROGRESS_LINES):
+            for k in range(start, min(start + _PROGRESS_LINES, len(lines))):
+                line = lines[k].strip()
+                if not line or k < first:
+                    continue
+                cells = _cells(line if delimiter == " " else lines[k], delimiter)  # leading empty cell counts
+                if line.startswith(_COMMENT) or (len(cells) == 1 and not _is_numeric(cells[0])):
+                    skipped.append(k + 1)
+                    continue
+                if len(cells) > len(headers):
+                    raise InputError(f"{where}: line {k + 1} has {len(cells)} cells but the header has "
+                                     f"{len(headers)} columns")
+                rows.append(tuple(cells) + ("",) * (len(headers) - len(cells)))
+                numbers.append(k + 1)
+            bar.update(min(start + _PROGRESS_LINES, len(lines)) - start)
     if skipped:
         notes.append(f"skipped {len(skipped)} comment or non-table line(s) below the header "
                      f"(line(s) {', '.join(map(str, skipped[:5]))}{'...' if len(skipped) > 5 else ''})")
@@ -285,15 +294,24 @@ def parse_number(cell: str, decimal: str = ".") -> float:
     raise ValueError(f"not a number: {cell!r}")
 
 
+#: Per decimal mark, a table that deletes every character a plain number may hold (digits, sign, mark,
+#: exponent, blanks, the newlines between cells): a column left with nothing has only such characters.
+_PLAIN_CHARACTERS = {mark: str.maketrans("", "", f"0123456789+-eE \t\n{mark}") for mark in ".,"}
+
+
 def _plain_column(table: TextTable, index: int) -> np.ndarray | None:
-    """The column as floats when every cell is a plain number in the table's decimal mark (one regular
-    expression over the whole column, then one conversion); None when any cell needs the cell-by-cell rules
-    of :func:`parse_number` (missing cells, thousands separators, text). Same values either way."""
+    """The column as floats when every cell is a plain number in the table's decimal mark (one pass over
+    the whole column, then one conversion); None when any cell needs the cell-by-cell rules of
+    :func:`parse_number` (missing cells, thousands separators, text). Same values either way: within those
+    characters Python's float() accepts exactly the plain-number pattern (``_NUMBER`` with blanks around)."""
     cells = [row[index] for row in table.rows]
-    number = _NUMBER if table.decimal == "." else _NUMBER_COMMA
-    if not cells or not re.fullmatch(rf"(?:[ \t]*{number.pattern}[ \t]*\n)*", "\n".join(cells) + "\n"):
+    if not cells or "\n".join(cells).translate(_PLAIN_CHARACTERS[table.decimal]):
         return None
-    values = np.array([c.replace(",", ".") for c in cells] if table.decimal == "," else cells, dtype=float)
+    try:
+        values = np.array([c.replace(",", ".") for c in cells] if table.decimal == "," else cells,
+                          dtype=float)
+    except ValueError:  # e.g. an empty cell, a lone sign or mark: the cell-by-cell rules decide
+        return None
     with np.errstate(invalid="ignore"):
         values[~np.isfinite(values) | (np.abs(values) >= OVERFLOW_MARKER)] = np.nan  # no reading
     return values
