@@ -1,22 +1,24 @@
 """Property tests (hypothesis): tables generated from a known impedance in random layouts read back exactly;
-random garbage and random unit words give a clean InputError, never a traceback or an assumed unit.
+random garbage gives a clean InputError, never a traceback; random unit words on role columns are read right
+or refused, never taken in an assumed unit.
 
 Check values: the impedance of a series R-L with a parallel C, computed here with numpy, and the level
 relations of the trade (peak = sqrt(2) rms = pp / 2; L_dBV = 20 log10(V_rms / 1 V); dBm: P = V_rms^2 / R re
-1 mW; common practice, no source). Generated cases per run: 150 + 150 + 100 + 100 + 100 = 600 (health
-checks and deadline from the profile in conftest.py).
+1 mW; common practice, no source). Generated cases per run: 150 (layouts) + 150 (text) + 100 (bytes) + 400
+(unit words) = 800 (health checks, deadline and derandomization from the profile in conftest.py; the counts
+per outcome: ``pytest --hypothesis-show-statistics``).
 """
 
 import math
 import string
 
 import numpy as np
-from hypothesis import given, settings
+from hypothesis import event, given, settings
 from hypothesis import strategies as st
 
 from fitz_tool.exceptions import InputError
 from fitz_tool.readers import ReadOptions, read_measurement
-from fitz_tool.readers.headers import _is_name_text
+from fitz_tool.readers.headers import FILLER, QUALIFIERS, _is_name_text
 from fitz_tool.units import read_unit
 
 PREFIX = {"": 1.0, "m": 1e-3, "u": 1e-6, "µ": 1e-6, "k": 1e3, "M": 1e6}
@@ -148,35 +150,109 @@ def test_random_bytes_are_read_or_refused_cleanly(tmp_path_factory, data):
         pass
 
 
-UNIT_WORDS = st.text(alphabet=string.ascii_letters + "µΩ°/%", min_size=1, max_size=8).filter(
-    lambda w: read_unit(w) is None and not _is_name_text(w))
+#: SI prefix multipliers, BIPM SI Brochure 9th edition, Table 7 ("K" for kilo as some exports write it).
+SI = {"": 1.0, "f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3, "k": 1e3,
+      "K": 1e3, "M": 1e6, "G": 1e9, "T": 1e12}
+#: Unit words the reader must understand, mixed into the random words so that both outcomes are drawn.
+UNDERSTOOD_WORDS = ["Hz", "kHz", "MHz", "GHz", "mhz", "khz", "rad/s", "Ohm", "mOhm", "kΩ", "MΩ", "ohms",
+                    "dBOhm", "deg", "°", "rad", "degrees", "V", "mV", "uV", "µV", "Vrms", "mVpp", "pk", "rms",
+                    "pp", "dBV", "dBmV", "dBuV", "A", "mA", "uA", "mArms", "dBA", "dBuA", "dBm", "F", "pF",
+                    "H", "uH", "%", "dB"]
+RANDOM_WORDS = st.one_of(st.text(alphabet=string.ascii_letters + "µΩ°", min_size=1, max_size=6),
+                         st.sampled_from(UNDERSTOOD_WORDS), st.sampled_from(sorted(QUALIFIERS)))
+#: The role columns of the two tables: (table, role, name written before the unit).
+ROLE_COLUMNS = [("polar", "frequency", "Frequency"), ("polar", "z_magnitude", "|Z|"),
+                ("polar", "z_phase", "Phase"), ("v_i", "v_amplitude", "Voltage"),
+                ("v_i", "i_amplitude", "Current")]
 
 
-@settings(max_examples=100)
-@given(word=UNIT_WORDS, style=st.sampled_from(["paren", "bracket"]),
-       role=st.sampled_from(["frequency", "|Z|", "Phase"]))
-def test_random_unit_words_are_refused_never_assumed(tmp_path_factory, word, style, role):
-    headers = {"frequency": "Frequency (Hz)", "|Z|": "|Z| (Ohm)", "Phase": "Phase (deg)"}
-    name = {"frequency": "Frequency", "|Z|": "|Z|", "Phase": "Phase"}[role]
+def _in_unit(role: str, unit, true_si: np.ndarray) -> np.ndarray | None:
+    """The true SI values of a role written in ``unit`` = (prefix, base, convention), or None when the unit
+    does not fit the role (the reader must refuse). Level and conversion relations: w = 2 pi f; L_dB =
+    20 log10(x / x_ref) with x_ref 1 (prefixed) V or A rms unless another convention is stated; |Z| in dB re
+    1 ohm (common practice, no source)."""
+    prefix, base, convention = unit
+    scale = SI[prefix]
+    per_peak = {"peak": 1.0, "rms": 1 / math.sqrt(2), "pp": 2.0}  # stated amplitude per peak amplitude
+    if role == "frequency" and convention is None:
+        return {"Hz": true_si / scale, "rad/s": 2 * np.pi * true_si / scale}.get(base)
+    if role == "z_magnitude" and convention is None:
+        return {"ohm": true_si / scale, "dBohm": 20 * np.log10(true_si) if not prefix else None}.get(base)
+    if role == "z_phase":
+        return {"deg": np.degrees(true_si), "rad": true_si}.get(base)
+    own = {"v_amplitude": "V", "i_amplitude": "A"}.get(role)
+    if own is None:
+        return None
+    if base in ("", own):
+        return true_si / scale * per_peak[convention or "peak"]
+    if base == "dB" + own:
+        return 20 * np.log10(true_si * per_peak[convention or "rms"] / scale)
+    return None  # a voltage level on the current column is a shunt voltage: refused without --shunt
+
+
+def _letter(word: str) -> bool:
+    return len(word) == 1 and word in string.ascii_letters
+
+
+def _name_word(word: str, style: str) -> bool:
+    """Whether the header reads the word as part of its name: a name word, a qualifier or a label (a single
+    letter or a number after a space or underscore); in brackets, name text only. A unit sign makes no
+    name."""
+    if any(sign in word for sign in "°%Ω\u2126"):
+        return False
+    if style in ("paren", "bracket"):
+        return _is_name_text(word)
+    lower = word.lower()
+    return _letter(word) or _is_name_text(word) or lower in QUALIFIERS | FILLER or lower.isdigit()
+
+
+@settings(max_examples=400)
+@given(word=RANDOM_WORDS, style=st.sampled_from(["space", "underscore", "paren", "bracket"]),
+       column=st.sampled_from(ROLE_COLUMNS))
+def test_random_unit_words_on_role_columns_are_read_right_or_refused(tmp_path_factory, word, style, column):
+    table, role, name = column
+    f = np.array([1e3, 1e4, 1e5])
+    z = 1 / (1 / (0.5 + 2j * np.pi * f * 1e-5) + 2j * np.pi * f * 1e-9)
+    current = 0.01 * np.exp(0.3j) * np.ones(3)
+    if table == "polar":
+        true = {"frequency": f, "z_magnitude": abs(z), "z_phase": np.angle(z)}
+        headers = {"frequency": "Frequency (Hz)", "z_magnitude": "|Z| (Ohm)", "z_phase": "Phase (deg)"}
+        cells = {"frequency": f, "z_magnitude": abs(z), "z_phase": np.degrees(np.angle(z))}
+    else:
+        v = z * current
+        true = {"v_amplitude": abs(v), "i_amplitude": abs(current)}
+        headers = {"frequency": "Frequency (Hz)", "v_amplitude": "Voltage (V)", "v_phase": "Phase V (deg)",
+                   "i_amplitude": "Current (A)", "i_phase": "Phase I (deg)"}
+        cells = {"frequency": f, "v_amplitude": abs(v), "v_phase": np.degrees(np.angle(v)),
+                 "i_amplitude": abs(current), "i_phase": np.degrees(np.angle(current))}
     headers[role] = _header(name, word, style)
+    unit = read_unit(word)
+    lone_letter = style == "space" and _letter(word)  # a channel label after a space, never a unit
+    if unit is not None and not lone_letter:
+        branch, written = "understood unit", _in_unit(role, unit, true[role])
+    elif _name_word(word, style):
+        branch, written = "name word (SI, recorded as assumed)", true[role] if role != "z_phase" else \
+            np.degrees(true[role])
+    else:
+        branch, written = "unknown word", None
+    if written is not None:
+        cells[role] = written
     path = tmp_path_factory.mktemp("u") / "u.csv"
-    path.write_text(",".join(headers.values()) + "\n1000,10,45\n2000,11,46\n", encoding="utf-8")
+    rows = np.column_stack(list(cells.values()))
+    path.write_text("\n".join([",".join(headers.values()), *(",".join(f"{x:.17g}" for x in r) for r in rows)])
+                    + "\n", encoding="utf-8")
     try:
-        read_measurement(path)
+        m = read_measurement(path)
     except InputError as err:
-        assert word in str(err)
-    else:
-        raise AssertionError(f"header {headers[role]!r} was read in an assumed unit")
-
-
-@settings(max_examples=100)
-@given(word=UNIT_WORDS.filter(lambda w: w.isalpha() and len(w) >= 2))
-def test_random_unit_words_after_an_underscore_are_refused(tmp_path_factory, word):
-    path = tmp_path_factory.mktemp("w") / "w.csv"
-    path.write_text(f"freq_{word},zmag_ohm,phase_deg\n1000,10,45\n2000,11,46\n", encoding="utf-8")
-    try:
-        read_measurement(path)
-    except InputError as err:
-        assert word in str(err)
-    else:
-        raise AssertionError(f"freq_{word} was read in an assumed unit")
+        event(f"{branch}: refused")
+        assert "\n" not in str(err) and str(path) in str(err)
+        if branch == "unknown word":
+            assert word in str(err)
+        assert branch != "understood unit" or written is None, f"{headers[role]!r} refused: {err}"
+        return
+    event(f"{branch}: read")
+    assert written is not None, f"header {headers[role]!r} was read in an assumed unit"
+    if branch.startswith("name word"):
+        assert m.provenance.units[role].endswith("(assumed)")
+    np.testing.assert_allclose(m.frequency, f, rtol=1e-9)
+    np.testing.assert_allclose(m.impedance, z, rtol=1e-9)

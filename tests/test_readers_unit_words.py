@@ -65,6 +65,18 @@ def test_an_unknown_word_ending_a_used_header_is_refused(tmp_path, position, hea
     assert understood in text and f"--map {role}='{header} (UNIT)'" in text
 
 
+@pytest.mark.parametrize(("position", "header", "message"), [
+    (2, "Phase pk", "'pk', which is not a phase unit"), (2, "Phase_rms", "'rms', which is not a phase unit"),
+    (1, "|Z| xΩ", "unit 'xΩ' is not understood"), (1, "|Z| %", "'%', which does not fit z_magnitude"),
+    (0, "Frequency °", "cannot tell which columns hold what"),
+])
+def test_a_convention_or_unit_sign_that_fits_no_role_is_refused(tmp_path, position, header, message):
+    # found by the unit-word property: a convention on a phase column, and unit signs glued to a name word
+    path = write(tmp_path, polar_with(position, header), [F, abs(Z), deg(Z)])
+    with pytest.raises(InputError, match=re.escape(message)):
+        read_measurement(path)
+
+
 @pytest.mark.parametrize(("header", "word"), [
     ("Voltage_bananas", "bananas"), ("Voltage bananas pp", "bananas"), ("Voltage bananas (rms)", "bananas"),
     ("Voltage furlongs B", "furlongs"),

@@ -34,7 +34,7 @@ import numpy as np
 
 from ..exceptions import InputError
 from ..phasor import db_to_linear, phase_to_radians, phasors_to_impedance, polar_to_complex, to_peak
-from ..units import prefix_factor
+from ..units import prefix_factor, read_unit
 from .headers import HeaderInfo
 from .lcr import LCR_FORMS, lcr_to_impedance
 
@@ -143,7 +143,7 @@ def _convert(role: str, info: HeaderInfo, raw: np.ndarray, where: str,
     refuse_unknown_unit(role, info, where)
     if role.endswith("_phase"):
         unit = info.base or "deg"
-        if unit not in ("deg", "rad"):
+        if unit not in ("deg", "rad") or (read_unit(info.unit_text) or ("", "", None))[2]:
             raise InputError(f"{where}: column {info.header!r} is in {info.unit_text!r}, which is not a "
                              f"phase unit (deg or rad); name the right column with --map {role}=HEADER")
         return phase_to_radians(raw, unit), f"{label}: {unit_label(role, info)} -> rad"

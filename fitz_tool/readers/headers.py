@@ -150,10 +150,16 @@ _FUNCTIONS = {"v", "i", "u", "z", "x", "r", "re", "im", "real", "imag", "abs", "
               "idb", "cph", "ch", "channel", "input", "trace", "tr"}
 _CHANNEL_WORDS = {"ch", "chan", "channel", "input", "in", "trace", "tr"}
 _LABEL = re.compile(r"#?[a-z]{0,3}\d+[a-z]?")
+_UNIT_SIGN = re.compile("[°%\u03a9\u2126]")
 
 
 def _is_name_text(text: str) -> bool:
-    """Whether text reads as part of a name (``DUT``, ``Ch1``, ``V-I``, ``shunt``, ``raw``), not a unit."""
+    """Whether text reads as part of a name (``DUT``, ``Ch1``, ``V-I``, ``shunt``, ``raw``), not a unit.
+
+    Text with a unit sign in it (``°``, ``%``, the ohm sign) is never a name (``"pp°"``, ``"xΩ"``).
+    """
+    if _UNIT_SIGN.search(unicodedata.normalize("NFKC", text)):
+        return False
     tokens, group, _ = _tokens(text)
     if not tokens:
         return group is not None or bool(re.fullmatch(r"[\s|'\-+]*", text))
@@ -164,6 +170,12 @@ def _is_name_text(text: str) -> bool:
 def _is_label(word: str) -> bool:
     """A number or channel/trace label (``1``, ``#2``, ``Ch1``, ``tr2``, ``S21``, ``2a``): never a unit."""
     return bool(_LABEL.fullmatch(word.lower()))
+
+
+def _is_letter(word: str) -> bool:
+    """A single Latin letter: after a space a channel label (``"Phase V"``), not a unit; ``°``, ``%``, ``Ω``
+    alone are units."""
+    return len(word) == 1 and word.isascii() and word.isalpha()
 
 
 def _groups(text: str) -> list[tuple[int, int, bool]]:
@@ -206,7 +218,7 @@ def _name_end(words: list[str]) -> int:
     while end > 1:
         word = words[end - 1].lower()
         named = word in QUALIFIERS | FILLER or (word in _KNOWN and word not in _CONVENTIONS)
-        if not (_is_label(word) or (named and parse_unit(word) is None)):
+        if not (_is_label(word) or (named and parse_unit(words[end - 1]) is None)):
             break
         end -= 1
     return end
@@ -226,7 +238,7 @@ def _word_unit(text: str) -> tuple[str, str, bool]:
         if end <= size:
             continue
         suffix = words[end - size:end]
-        if len(suffix[0]) == 1 and ("_" not in separators[end - size - 1]
+        if _is_letter(suffix[0]) and ("_" not in separators[end - size - 1]
                                     or words[end - size - 1].lower() in _CHANNEL_WORDS):
             continue
         if parse_unit(" ".join(suffix)) is not None:
@@ -245,12 +257,12 @@ def _unknown_trailing_word(name: str) -> tuple[str, str] | None:
     tokens = re.split(r"([\s_]+)", name.strip())
     words = tokens[0::2]
     end = _name_end(words)
-    while end > 2 and len(words[end - 1]) == 1:  # a channel letter ("Voltage furlongs B")
+    while end > 2 and _is_letter(words[end - 1]):  # a channel letter ("Voltage furlongs B")
         end = _name_end(words[:end - 1])
     if end < 2:
         return None
     word, before = words[end - 1], words[end - 2].lower()
-    if len(word) == 1 or before in _CHANNEL_WORDS or _is_name_text(word):
+    if _is_letter(word) or before in _CHANNEL_WORDS or _is_name_text(word):
         return None
     rest = "".join(tokens[:2 * (end - 1) - 1] + tokens[2 * end - 1:])
     return re.sub(r"^[\s_]+|[\s_]+$", "", rest), word
