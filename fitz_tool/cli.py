@@ -419,12 +419,14 @@ def _fit_work(args, measurement, constraints, limits, at, waveform):
                 bar.set_postfix_str(expression)
                 started.append(expression)
 
-            selection = fit_auto(measurement, **constraints, jobs=args.jobs, progress=step)
+            selection = fit_auto(measurement, **constraints, jobs=args.jobs, progress=step,
+                                 noise_shape=getattr(args, "noise_shape", "estimate"))
         result = selection.chosen
     else:
         circuit = resolve_model(args.model)
         check_expression(circuit)
-        result = fit(measurement, circuit, **constraints)
+        result = fit(measurement, circuit, **constraints,
+                     noise_shape=getattr(args, "noise_shape", "estimate"))
     design = design_values(result, at)
     budget = uncertainty_budget(result, limits, at, monte_carlo=args.budget_mc)
     drive = None
@@ -800,6 +802,10 @@ def build_parser() -> argparse.ArgumentParser:
     model.add_argument("--intervals", choices=["flagged", "all", "none"], default="flagged",
                        help="68 %% profile-likelihood intervals: for parameters whose first-order error "
                             "is not trustworthy (default), for every parameter, or none")
+    model.add_argument("--noise-shape", choices=["estimate", "single"], default="estimate",
+                       help="without stated uncertainties: a noise model from the data (relative part plus "
+                            "channel floors, kept when the likelihood supports it; default) or the reader's "
+                            "single shape (relative to |Z|; additive in S for Touchstone)")
     model.add_argument("--jobs", type=int, default=None, metavar="N",
                        help="processes for --model auto on large files (default: the core count)")
     model.add_argument("--max-time", type=float, default=DEFAULT_MAX_TIME, metavar="SECONDS",

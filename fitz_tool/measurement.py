@@ -16,7 +16,7 @@ import numpy as np
 
 from .exceptions import InputError
 
-__all__ = ["file_sha256", "Measurement", "Provenance"]
+__all__ = ["file_sha256", "Measurement", "NoiseTerm", "Provenance"]
 
 
 @dataclass(frozen=True)
@@ -64,6 +64,43 @@ class Provenance:
         return dataclasses.replace(self, steps=self.steps + (step,), warnings=warnings)
 
 
+@dataclass(frozen=True)
+class NoiseTerm:
+    """One term of the per-point noise variance of ln Z that a reader knows from how the data were taken.
+
+    The variance of each component of ln Z (ln|Z| and phase in rad) at point i is modelled as
+    ``sum_k theta_k * coefficient_k[i] / (|Z_model[i]|^2 if on_model else 1)``; the theta_k are estimated
+    from the data (:mod:`fitz_tool.fitting.noise`). A relative term has coefficient 1; a channel floor
+    sigma on a channel whose level is ``|I| |Z|`` has coefficient ``1 / |I|^2`` and ``on_model`` True.
+
+    Attributes
+    ----------
+    name : str
+        Short key (``"relative"``, ``"part_floor"``, ``"sense_floor"``, ``"impedance_floor"``, ``"s_floor"``).
+    coefficient : ndarray of float
+        Per-point coefficient (> 0), in 1 / unit^2 (unit^2 of the level once divided by |Z_model|^2).
+    on_model : bool
+        True when the coefficient is divided by the model's |Z|^2 (the level of the part channel).
+    unit : str
+        Unit of sqrt(theta) as reported: ``"%"`` for a relative term, ``"V"``, ``"A"``, ``"ohm"`` or ``""``.
+    words : str
+        What sqrt(theta) is, in words: ``"of |Z|"``, ``"on the part channel (peak)"``...
+    default : bool
+        True for the terms of the single-shape model the fit uses when nothing better is supported.
+    """
+
+    name: str
+    coefficient: np.ndarray
+    on_model: bool
+    unit: str
+    words: str
+    default: bool = False
+
+    def column(self, model_magnitude: np.ndarray) -> np.ndarray:
+        """The term's per-point variance factor at a model's |Z| (ohm)."""
+        return self.coefficient / model_magnitude**2 if self.on_model else self.coefficient
+
+
 def _check_physical(f: np.ndarray, z: np.ndarray, where: str) -> None:
     """Frequencies and |Z| inside the ranges of ``limits`` (far beyond any bench), else InputError."""
     from .limits import MAX_FREQUENCY, MAX_IMPEDANCE, MIN_FREQUENCY, MIN_IMPEDANCE
@@ -101,6 +138,9 @@ class Measurement:
         False when they only give the relative weight of points (noise level estimated from the residuals).
     provenance : Provenance
         File, columns, units, conversions and warnings.
+    noise_terms : tuple of NoiseTerm
+        The terms a noise model may be built from (channel floors, relative parts), from the reader; empty
+        when the reader knows none. Used only when no absolute uncertainty is stated.
     """
 
     frequency: np.ndarray
@@ -109,6 +149,7 @@ class Measurement:
     sigma_phase: np.ndarray | None = None
     sigma_absolute: bool = False
     provenance: Provenance = field(default_factory=Provenance)
+    noise_terms: tuple[NoiseTerm, ...] = ()
 
     def __post_init__(self) -> None:
         f = np.asarray(self.frequency, dtype=float)
@@ -134,6 +175,14 @@ class Measurement:
                 if not np.all(np.isfinite(s)) or not np.all(s > 0):
                     raise InputError(f"{where}: {name} must be finite and > 0")
                 object.__setattr__(self, name, s)
+        terms = []
+        for term in self.noise_terms:
+            c = np.broadcast_to(np.asarray(term.coefficient, dtype=float), f.shape).copy()
+            if not np.all(np.isfinite(c)) or not np.all(c > 0):
+                raise InputError(f"{where}: noise term {term.name} must have finite coefficients > 0")
+            c.setflags(write=False)
+            terms.append(dataclasses.replace(term, coefficient=c))
+        object.__setattr__(self, "noise_terms", tuple(terms))
         for arr in (self.frequency, self.impedance, self.sigma_lnmag, self.sigma_phase):
             if arr is not None:
                 arr.setflags(write=False)
@@ -167,10 +216,21 @@ class Measurement:
         return int(self.frequency.size)
 
     def replace(self, step: str | None = None, warning: str | None = None, **changes) -> Measurement:
-        """Return a copy with fields changed and, if given, the step recorded in the provenance."""
+        """Return a copy with fields changed and, if given, the step recorded in the provenance.
+
+        Noise terms are kept only while the frequencies and |Z| stay those read (or when given)."""
         if step is not None:
             changes["provenance"] = changes.get("provenance", self.provenance).with_step(step, warning)
+        if self.noise_terms and "noise_terms" not in changes and not self._same_points(changes):
+            changes["noise_terms"] = ()  # the channel levels belong to the points as read
         return dataclasses.replace(self, **changes)
+
+    def _same_points(self, changes: dict) -> bool:
+        """True when ``changes`` keep the frequencies and |Z| (e.g. a phase-only correction)."""
+        f = np.asarray(changes.get("frequency", self.frequency), dtype=float)
+        z = np.asarray(changes.get("impedance", self.impedance), dtype=complex)
+        return (f.shape == self.frequency.shape and np.array_equal(f, self.frequency)
+                and np.allclose(np.abs(z), self.magnitude, rtol=1e-12, atol=0.0))
 
     def with_stated_noise(self, relative_magnitude: float, phase_rad: float) -> Measurement:
         """Return a copy whose points carry a stated standard uncertainty (absolute, trusted weights).
@@ -214,6 +274,8 @@ class Measurement:
             impedance=self.impedance[mask],
             sigma_lnmag=pick(self.sigma_lnmag),
             sigma_phase=pick(self.sigma_phase),
+            noise_terms=tuple(dataclasses.replace(t, coefficient=t.coefficient[mask])
+                              for t in self.noise_terms),
         )
 
 

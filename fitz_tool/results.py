@@ -77,7 +77,8 @@ class FitResult:
 
     ``chi_square`` is the sum of squared weighted residuals (real and imaginary parts of the log-impedance
     residual each divided by its sigma); ``n_points`` counts complex points, so the residual vector has
-    ``2 * n_points`` entries and ``degrees_of_freedom = 2 * n_points - n_free``.
+    ``2 * n_points`` entries and ``degrees_of_freedom = 2 * n_points - n_free``. ``weighting`` says how the
+    residuals were weighted and ``noise_model`` the noise model used, in words ("" when none was estimated).
     """
 
     circuit: Circuit
@@ -96,6 +97,7 @@ class FitResult:
     message: str
     flags: tuple[str, ...] = ()
     weighting: str = ""
+    noise_model: str = ""
     uvars: dict | None = field(default=None, repr=False)
 
     @property

@@ -29,13 +29,19 @@ from ..presets import resolve_model
 from ..results import FitResult
 from .assessment import INTERVAL_MODES, assess, residual_structure
 from .local import LocalFit, local_fit
+from .noise import NoiseModel, estimate_noise
 from .problem import FitProblem, decimated, problem_for
 from .resonances import resonance_intervals, resonance_starts
 from .scatter import FAR_ABOVE_SCATTER, scatter_sigma
 from .seeding import data_seed, global_search, refine_by_scans, search_ranges
 from .work import DEFAULT_MAX_EVALUATIONS, DEFAULT_MAX_TIME, work_budget
 
-__all__ = ["fit", "search", "judge", "Searched", "BOUND_DECADES", "SCATTER_FLAG", "far_above_scatter"]
+__all__ = ["fit", "search", "judge", "with_noise_model", "Searched", "BOUND_DECADES", "SCATTER_FLAG",
+           "far_above_scatter", "NOISE_SHAPES"]
+
+#: How the per-point noise is modelled when no uncertainty is stated: estimated from the data (the
+#: reader's terms, chosen by BIC, :mod:`fitz_tool.fitting.noise`) or the reader's single shape only.
+NOISE_SHAPES = ("estimate", "single")
 
 #: Opening words of the flag for residuals far above the data's own scatter.
 SCATTER_FLAG = "residuals far above the noise"
@@ -99,7 +105,7 @@ def _boxes(circuit: Circuit, m: Measurement, free: tuple[str, ...],
 def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, float] | None = None,
         guesses: Mapping[str, float] | None = None,
         bounds: Mapping[str, tuple[float, float]] | None = None, intervals: str = "flagged",
-        max_time: float | None = DEFAULT_MAX_TIME,
+        noise_shape: str = "estimate", max_time: float | None = DEFAULT_MAX_TIME,
         max_evaluations: int | None = DEFAULT_MAX_EVALUATIONS) -> FitResult:
     """Fit a circuit to a measurement with no starting values needed.
 
@@ -119,6 +125,10 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
         Which free parameters get a 68 % profile-likelihood interval: those whose first-order standard
         error is not trusted (at a bound, none, above 30 % of the value, correlation near 1; see
         :mod:`fitz_tool.assessment`), every one, or none (first-order errors only).
+    noise_shape : {"estimate", "single"}
+        Without stated uncertainties: a noise model from the data (relative part plus channel floors, kept
+        only when the likelihood supports it, :mod:`fitz_tool.fitting.noise`), or the reader's single
+        shape (relative to |Z| for text files, additive in S for Touchstone).
     max_time, max_evaluations : float, int or None
         Work budget of the whole fit: wall-clock seconds and model evaluations (impedance values at one
         frequency), see :mod:`fitz_tool.fitting.work`; None for no limit.
@@ -141,8 +151,26 @@ def fit(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, f
     """
     if intervals not in INTERVAL_MODES:
         raise InputError(f"intervals={intervals!r}: use one of {', '.join(INTERVAL_MODES)}")
+    check_noise_shape(noise_shape)
     with work_budget(max_time, max_evaluations):
-        return judge(search(measurement, model, fixed=fixed, guesses=guesses, bounds=bounds), intervals)
+        found = search(measurement, model, fixed=fixed, guesses=guesses, bounds=bounds)
+        return judge(with_noise_model(found) if noise_shape == "estimate" else found, intervals)
+
+
+def check_noise_shape(noise_shape: str) -> None:
+    """Refuse a noise shape not in ``NOISE_SHAPES``."""
+    if noise_shape not in NOISE_SHAPES:
+        raise InputError(f"noise shape {noise_shape!r}: use one of {', '.join(NOISE_SHAPES)}")
+
+
+def with_noise_model(searched: Searched) -> Searched:
+    """The search with its noise model from the data (and refitted with it when one is chosen over the
+    single shape); unchanged when the measurement has no noise terms or states absolute uncertainties."""
+    found = estimate_noise(searched.problem, searched.measurement, searched.out, searched.bounds)
+    if found is None:
+        return searched
+    problem, out, measurement, model = found
+    return replace(searched, problem=problem, out=out, measurement=measurement, noise=model)
 
 
 def search(measurement: Measurement, model: str | Circuit, *, fixed: Mapping[str, float] | None = None,
@@ -190,6 +218,7 @@ class Searched:
     scale_covar: bool
     stage: str
     user_bounded: frozenset[str]
+    noise: NoiseModel | None = None
 
     @property
     def chi_square(self) -> float:
@@ -203,6 +232,8 @@ def judge(searched: Searched, intervals: str = "flagged") -> FitResult:
     result = assess(problem, s.measurement, s.out, s.bounds, s.scale_covar, s.stage, intervals=intervals,
                     user_bounded=s.user_bounded,
                     refit=lambda x: local_fit(problem, x, b_lo, b_hi, s.scale_covar))
+    if s.noise is not None:
+        result = replace(result, noise_model=s.noise.words())
     extra = list(problem.circuit.notes)
     ratio = far_above_scatter(problem, result.chi_square, _scatter(problem))
     if ratio is not None:

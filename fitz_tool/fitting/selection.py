@@ -20,6 +20,7 @@ from __future__ import annotations
 import math
 import os
 from collections.abc import Callable, Mapping, Sequence
+from dataclasses import replace
 
 import numpy as np
 
@@ -29,7 +30,7 @@ from ..measurement import Measurement
 from ..presets import default_candidates, resolve_model
 from ..results import FitResult, ModelSelection, RankedModel
 from .assessment import INTERVAL_MODES
-from .least_squares import SCATTER_FLAG, Searched, judge, search
+from .least_squares import SCATTER_FLAG, Searched, check_noise_shape, judge, search, with_noise_model
 from .work import budgeted
 
 __all__ = ["fit_auto", "is_adequate", "BIC_MARGIN"]
@@ -102,7 +103,7 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
              fixed: Mapping[str, float] | None = None, guesses: Mapping[str, float] | None = None,
              bounds: Mapping[str, tuple[float, float]] | None = None,
              intervals: str = "flagged", jobs: int | None = None,
-             progress: Callable[[str], None] | None = None) -> ModelSelection:
+             progress: Callable[[str], None] | None = None, noise_shape: str = "estimate") -> ModelSelection:
     """Fit every candidate and choose the simplest adequate model (rule in the module docstring).
 
     Parameters
@@ -119,6 +120,9 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
         rule could choose); the others are judged by first-order errors, and their note says so.
     progress : callable, optional
         Called with each candidate's expression as its search runs (e.g. a progress bar at the CLI).
+    noise_shape : {"estimate", "single"}
+        As for :func:`fitz_tool.fit`. Candidates are ranked with the single shape (so their BICs compare);
+        the chosen one is then fitted again with its noise model from the data.
     jobs : int, optional
         Processes for the candidates' searches (default: the core count); a pool is used only for sweeps of
         at least ``PARALLEL_POINTS`` points, where it pays for its start.
@@ -132,6 +136,7 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
     """
     if intervals not in INTERVAL_MODES:
         raise InputError(f"intervals={intervals!r}: use one of {', '.join(INTERVAL_MODES)}")
+    check_noise_shape(noise_shape)
     expressions = list(dict.fromkeys(resolve_model(c) for c in (candidates or default_candidates())))
     searched = _search_all(measurement, expressions, (fixed, guesses, bounds), jobs or os.cpu_count() or 1,
                            progress)
@@ -150,7 +155,17 @@ def fit_auto(measurement: Measurement, candidates: Sequence[str] | None = None, 
         raise FitError("no candidate model could be fitted: " + "; ".join(r.note for r in ranked))
     if intervals != "none":
         ranked = _judge_in_play(ranked, done, intervals)
-    return _choose(ranked)
+    selection = _choose(ranked)
+    if noise_shape == "estimate":
+        expression = next(r.expression for r in selection.ranking if r.result is selection.chosen)
+        found = with_noise_model(done[expression])
+        if found.noise is not None and not found.noise.default:
+            selection = replace(selection, chosen=judge(found, intervals), reason=selection.reason
+                                + "; then fitted again with the noise model from the data")
+        elif found.noise is not None:
+            chosen = replace(selection.chosen, noise_model=found.noise.words())
+            selection = replace(selection, chosen=chosen)
+    return selection
 
 
 def _judge_in_play(ranked: list[RankedModel], done: dict, intervals: str) -> list[RankedModel]:

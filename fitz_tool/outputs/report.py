@@ -161,6 +161,8 @@ def quality_rows(result: FitResult, verbose: bool = False) -> list[tuple[str, st
                        f"{result.degrees_of_freedom} degrees of freedom"),
             ("BIC", f"{result.bic:.1f} (for comparing models on the same data: lower is better)"),
             ("weighting", result.weighting or "not stated")]
+    if result.noise_model:
+        rows.append(("noise", result.noise_model))
     if verbose:
         rows += [("chi-square", f"{result.chi_square:.6g}"),
                  ("reduced chi-square", f"{result.reduced_chi_square:.4g}"),
@@ -306,7 +308,7 @@ def fit_to_json(result: FitResult, selection: ModelSelection | None, design: Des
                 "chi_square": _num(result.chi_square), "reduced_chi_square": _num(result.reduced_chi_square),
                 "aic": _num(result.aic), "bic": _num(result.bic), "n_points": int(result.n_points),
                 "n_free": int(result.n_free), "degrees_of_freedom": int(result.degrees_of_freedom),
-                "weighting": result.weighting},
+                "weighting": result.weighting, "noise_model": result.noise_model},
         "flags": list(result.flags),
         "correlation": correlation,
         "ranking": ranking,

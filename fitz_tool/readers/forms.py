@@ -33,6 +33,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..exceptions import InputError
+from ..measurement import NoiseTerm
 from ..phasor import db_to_linear, phase_to_radians, phasors_to_impedance, polar_to_complex, to_peak
 from ..units import prefix_factor, read_unit
 from .headers import HeaderInfo
@@ -43,7 +44,7 @@ if TYPE_CHECKING:
 
 __all__ = ["AMPLITUDE_ROLES", "VOLTAGE_BASES", "unit_label", "understood", "refuse_unknown_unit",
            "convert_columns", "InputForm", "INPUT_FORMS", "SHUNT_FORM", "form_words", "build_impedance",
-           "stated_sigmas"]
+           "stated_sigmas", "noise_terms"]
 
 #: Roles whose values are magnitudes (never negative).
 AMPLITUDE_ROLES = ("v_amplitude", "i_amplitude", "z_magnitude", "ratio_magnitude")
@@ -394,3 +395,26 @@ def stated_sigmas(plan: ColumnPlan, values: Mapping[str, np.ndarray],
     step = (f"stated standard uncertainties (k = 1) from {headers[0]!r} and {headers[1]!r}, carried to ln|Z| "
             f"and phase per point: absolute weights (uncertainties from them, chi-square tests the model)")
     return sig[0], sig[1], step
+
+
+def noise_terms(form: str, values: Mapping[str, np.ndarray], shunt: float | None) -> tuple[NoiseTerm, ...]:
+    """The terms a noise model of this form is built from, per row of ``values`` (SI, amplitudes peak).
+
+    Every form: a part relative to |Z| (the default shape: equal weights on ln|Z| and phase). V/I forms: a
+    floor on each channel, as a phasor error of fixed size, so the variance of ln Z it adds is
+    floor^2 / level^2: the part channel's level is |I| |Z| (from the model), the current or shunt channel's
+    |I| or |V_shunt| as read. Other forms: a floor in ohm on Z (floor^2 / |Z|^2). Channel levels are peak
+    amplitudes, so a floor is a peak amplitude too (common practice, no source).
+    """
+    if form == "simulator_complex":
+        return ()
+    n = len(values["frequency"])
+    relative = NoiseTerm("relative", np.ones(n), False, "%", "of |Z|", default=True)
+    if "i_amplitude" not in values:
+        return relative, NoiseTerm("impedance_floor", np.ones(n), True, "ohm", "in Z")
+    sense = values["i_amplitude"]
+    current = sense / shunt if form == SHUNT_FORM else sense
+    part = NoiseTerm("part_floor", 1.0 / current**2, True, "V", "on the part channel (peak)")
+    unit, channel = ("V", "shunt") if form == SHUNT_FORM else ("A", "current")
+    sense_term = NoiseTerm("sense_floor", 1.0 / sense**2, False, unit, f"on the {channel} channel (peak)")
+    return relative, part, sense_term

@@ -54,12 +54,12 @@ def drop_rows(keep: np.ndarray, mask: np.ndarray, reason: str, lines: np.ndarray
 
 
 def finish_rows(frequency: np.ndarray, z: np.ndarray, lines: np.ndarray, keep: np.ndarray, steps: list[str],
-                warnings: list[str], where: str,
-                sigmas: tuple[np.ndarray, np.ndarray] | None = None
-                ) -> tuple[np.ndarray, np.ndarray, tuple[np.ndarray, np.ndarray] | None]:
+                warnings: list[str], where: str, carried: tuple[np.ndarray, ...] = ()
+                ) -> tuple[np.ndarray, np.ndarray, tuple[np.ndarray, ...]]:
     """Drop, sort and de-duplicate rows (module rules); arrays are per file row, ``keep`` the rows still in.
 
-    Returns frequency (Hz, ascending, unique), Z (ohm) and the per-point sigmas, if any, in the same order.
+    Returns frequency (Hz, ascending, unique), Z (ohm) and the ``carried`` per-row arrays (sigmas, noise
+    coefficients) in the same order.
     """
     keep = keep.copy()
     drop_rows(keep, frequency == 0, "at 0 Hz (a DC point has no phase)", lines, warnings)
@@ -69,7 +69,7 @@ def finish_rows(frequency: np.ndarray, z: np.ndarray, lines: np.ndarray, keep: n
     if not keep.any():
         raise InputError(f"{where}: no usable row left ({'; '.join(warnings)})")
     f, z, lines = frequency[keep], z[keep], lines[keep]
-    extra = [s[keep] for s in sigmas] if sigmas is not None else []
+    extra = [s[keep] for s in carried]
     order = np.argsort(f, kind="stable")
     if np.any(np.diff(f) < 0):
         how = "descending" if np.all(np.diff(f) <= 0) else "no"
@@ -84,5 +84,4 @@ def finish_rows(frequency: np.ndarray, z: np.ndarray, lines: np.ndarray, keep: n
     if repeat.any():
         warnings.append(f"dropped {int(repeat.sum())} repeated row(s) with the same frequency and reading "
                         f"(line(s) {_lines(lines, repeat)})")
-    out = None if sigmas is None else (extra[0][~repeat], extra[1][~repeat])
-    return f[~repeat], z[~repeat], out
+    return f[~repeat], z[~repeat], tuple(s[~repeat] for s in extra)

@@ -19,6 +19,7 @@ repeated frequency with a different impedance          error naming both lines
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 from pathlib import Path
 
@@ -35,6 +36,7 @@ from .forms import (
     AMPLITUDE_ROLES,
     build_impedance,
     convert_columns,
+    noise_terms,
     refuse_unknown_unit,
     stated_sigmas,
     understood,
@@ -181,13 +183,18 @@ def read_delimited(path: str | Path, options: ReadOptions | None = None) -> Meas
     warnings += z_warnings
     z = np.full(lines.size, np.nan, dtype=complex)
     z[keep] = z_kept
-    sigmas = None
     stated = stated_sigmas(plan, kept, z_kept)
+    terms = () if stated is not None else noise_terms(form, kept, shunt)
+    carried = []
+    for per_point in ([*stated[:2]] if stated is not None else [t.coefficient for t in terms]):
+        row = np.full(lines.size, np.nan)
+        row[keep] = per_point
+        carried.append(row)
     if stated is not None:
-        sigmas = (np.full(lines.size, np.nan), np.full(lines.size, np.nan))
-        sigmas[0][keep], sigmas[1][keep] = stated[0], stated[1]
         steps.append(stated[2])
-    frequency, z, sigmas = finish_rows(values["frequency"], z, lines, keep, steps, warnings, where, sigmas)
+    frequency, z, carried = finish_rows(values["frequency"], z, lines, keep, steps, warnings, where,
+                                        tuple(carried))
+    sigmas = carried if stated is not None else None
     provenance = Provenance(
         source=where,
         sha256=hashlib.sha256(raw).hexdigest(),
@@ -201,7 +208,10 @@ def read_delimited(path: str | Path, options: ReadOptions | None = None) -> Meas
     )
     return Measurement(frequency=frequency, impedance=z, provenance=provenance,
                        sigma_lnmag=None if sigmas is None else sigmas[0],
-                       sigma_phase=None if sigmas is None else sigmas[1], sigma_absolute=sigmas is not None)
+                       sigma_phase=None if sigmas is None else sigmas[1], sigma_absolute=sigmas is not None,
+                       noise_terms=() if sigmas is not None else tuple(
+                           dataclasses.replace(t, coefficient=c)
+                           for t, c in zip(terms, carried, strict=True)))
 
 
 def _simulator_measurement(table: ComplexTable, raw: bytes, path: Path, column_map: dict[str, str],

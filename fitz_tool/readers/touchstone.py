@@ -45,7 +45,7 @@ import skrf
 from skrf.io.touchstone import Touchstone
 
 from ..exceptions import InputError
-from ..measurement import Measurement, Provenance
+from ..measurement import Measurement, NoiseTerm, Provenance
 from .touchstone_checks import checked_touchstone_text, named_text
 
 __all__ = [
@@ -411,5 +411,9 @@ def read_touchstone(path: str | Path, options=None) -> Measurement:
         steps=tuple(steps),
         warnings=tuple(warnings_),
     )
-    return Measurement(frequency[usable], impedance[usable], sigma_lnmag=sensitivity[usable],
-                       sigma_phase=sensitivity[usable], sigma_absolute=False, provenance=provenance)
+    g = sensitivity[usable]
+    level = np.abs(s[usable])
+    terms = ((NoiseTerm("s_relative", (g * level) ** 2, False, "%", f"of |{field}|"),) if np.all(level > 0)
+             else ()) + (NoiseTerm("s_floor", g**2, False, "", f"in {field}", default=True),)
+    return Measurement(frequency[usable], impedance[usable], sigma_lnmag=g, sigma_phase=g,
+                       sigma_absolute=False, provenance=provenance, noise_terms=terms)
