@@ -12,11 +12,12 @@ common practice). Every non-empty subset of the terms is scored by ``BIC = -2 ln
 1978, k thetas, 2M residual entries); the single-shape model the fit uses by default (the terms marked
 ``default``) is kept unless another subset scores lower by more than ``BIC_MARGIN`` (6: "strong" evidence
 on the scale of Kass and Raftery, J. Am. Stat. Assoc. 90 (1995) 773, from memory), so that a shape the data
-cannot tell from the default (a floor on a channel of nearly constant level) is not reported. A chosen model is iterated: the circuit refitted
-with weights ``1 / sqrt(v)`` (Levenberg-Marquardt from the current point), the thetas re-estimated, until
-``v`` changes by less than 1 % (iteratively reweighted least squares). It is kept only if its BIC, with
-the circuit refitted, stays below the default's. The fit's covariance is still scaled by the residuals, so
-the thetas give the shape of the noise and the residuals its level.
+cannot tell from the default (a floor on a channel of nearly constant level) is not reported. A chosen
+model is iterated: the circuit refitted with weights ``1 / sqrt(v)`` (Levenberg-Marquardt from the current
+point), the thetas re-estimated, until ``v`` changes by less than 1 % (iteratively reweighted least
+squares). It is kept only if its BIC, with the circuit refitted, still leads the default's by the margin.
+The fit's covariance is still scaled by the residuals, so the thetas give the shape of the noise and the
+residuals its level.
 """
 
 from __future__ import annotations
