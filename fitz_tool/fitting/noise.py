@@ -29,7 +29,7 @@ import numpy as np
 from scipy.optimize import minimize
 
 from ..measurement import Measurement, NoiseTerm
-from ..units import format_quantity
+from ..units import _eng
 from .local import LocalFit, local_fit
 from .problem import FitProblem
 
@@ -74,7 +74,7 @@ class NoiseModel:
             if term.unit == "%":
                 parts.append(f"{100 * size:.2g} % {term.words}")
             elif term.unit:
-                parts.append(f"a floor of {format_quantity(size, term.unit)} {term.words}")
+                parts.append(f"a floor of {_eng(float(f'{size:.2g}'), term.unit, None)} {term.words}")
             else:
                 parts.append(f"a floor of {size:.2g} ({20 * np.log10(size):.0f} dB) {term.words}")
         text = " plus ".join(parts)
