@@ -26,7 +26,7 @@ import itertools
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import minimize
+from scipy.optimize import nnls
 
 from ..measurement import Measurement, NoiseTerm
 from ..units import _eng
@@ -37,6 +37,8 @@ __all__ = ["NoiseModel", "likelihood_thetas", "choose_terms", "estimate_noise", 
 
 #: Largest number of refit-and-re-estimate rounds for a chosen noise model.
 ITERATIONS = 6
+#: Largest number of Fisher-scoring steps of the theta estimate.
+MAX_SCORING = 60
 #: BIC lead over the single-shape default that a noise model from the data needs.
 BIC_MARGIN = 6.0
 #: Relative change of every point's variance below which the rounds stop.
@@ -71,12 +73,16 @@ class NoiseModel:
         parts = []
         for term, theta in zip(self.terms, self.theta, strict=True):
             size = float(np.sqrt(theta))
+            if size == 0:
+                continue
             if term.unit == "%":
                 parts.append(f"{100 * size:.2g} % {term.words}")
             elif term.unit:
                 parts.append(f"a floor of {_eng(float(f'{size:.2g}'), term.unit, None)} {term.words}")
             else:
                 parts.append(f"a floor of {size:.2g} ({20 * np.log10(size):.0f} dB) {term.words}")
+        if not parts:
+            return "no noise left in the residuals (exact data)"
         text = " plus ".join(parts)
         if self.default:
             return f"{text} (the single-shape model; no added term lowers the BIC)"
@@ -91,28 +97,38 @@ def _columns(terms: tuple[NoiseTerm, ...], z_model: np.ndarray) -> np.ndarray:
 def likelihood_thetas(r2: np.ndarray, columns: np.ndarray) -> tuple[np.ndarray, float]:
     """Maximum-likelihood thetas (>= 0) for squared complex residuals ``r2`` and term columns (M, k).
 
-    Returns (theta, -2 ln L without the constant). Each component of ln Z has variance ``columns @ theta``.
+    Returns (theta, -2 ln L without the constant). Each component of ln Z has variance ``columns @ theta``,
+    so ``r2 / 2`` has mean ``v`` and variance ``v^2``: Fisher scoring is then a weighted least-squares fit of
+    ``r2 / 2`` on the columns with weights ``1 / v^2`` (the classical iteration for variance components,
+    common practice), here with theta >= 0 by ``scipy.optimize.nnls``, started from the best single term
+    (whose estimate is closed-form, ``mean(r2 / 2 / column)``) and with the step halved until the likelihood
+    rises, so the result is never worse than the best single term.
     """
-    r2 = np.asarray(r2, dtype=float)
-    k = columns.shape[1]
-    scale = max(float(np.mean(r2)) / 2, 1e-300)
-    centre = np.log(scale / np.median(columns, axis=0))
+    y = np.asarray(r2, dtype=float) / 2
+    scale = np.median(columns, axis=0)
+    b = columns / scale
 
-    def objective(u):
-        theta = np.exp(u)
-        v = columns @ theta
-        f = float(np.sum(r2 / v + 2 * np.log(v)))
-        grad = theta * (columns.T @ (2 / v - r2 / v**2))
-        return f, grad
+    def m2lnl(theta):
+        v = np.maximum(b @ theta, 1e-300)
+        return float(np.sum(2 * y / v + 2 * np.log(v)))
 
-    best = None
-    starts = [centre - np.log(k)] + [centre + np.where(np.arange(k) == j, 0.0, -6.0) for j in range(k)]
-    for u0 in starts[: 1 + (k > 1) * k]:
-        out = minimize(objective, u0, jac=True, method="L-BFGS-B",
-                       bounds=[(c - 40, c + 10) for c in centre])
-        if best is None or out.fun < best.fun:
-            best = out
-    return np.exp(best.x), float(best.fun)
+    alone = np.mean(y[:, None] / b, axis=0)
+    singles = [m2lnl(np.where(np.arange(b.shape[1]) == k, alone[k], 0.0)) for k in range(b.shape[1])]
+    k0 = int(np.argmin(singles))
+    theta, current = np.where(np.arange(b.shape[1]) == k0, alone[k0], 0.0), singles[k0]
+    for _ in range(MAX_SCORING if b.shape[1] > 1 else 0):
+        w = 1 / np.maximum(b @ theta, 1e-300)
+        step = nnls(b * w[:, None], y * w)[0] - theta
+        t = 1.0
+        while t > 1e-4 and m2lnl(theta + t * step) > current:
+            t /= 2
+        trial = m2lnl(theta + t * step)
+        if trial > current:
+            break
+        theta, gain, current = theta + t * step, current - trial, trial
+        if gain <= 1e-9 * max(1.0, abs(current)):
+            break
+    return theta / scale, current
 
 
 def choose_terms(terms: tuple[NoiseTerm, ...], r2: np.ndarray, z_model: np.ndarray
@@ -193,6 +209,8 @@ def estimate_noise(problem: FitProblem, measurement: Measurement, out: LocalFit,
         v = v_new
         if settled:
             break
+    live = theta > 0  # a term estimated at 0 is left out (same likelihood, one parameter fewer)
+    subset, theta = tuple(t for t, keep in zip(subset, live, strict=True) if keep), theta[live]
     gain = scores[default] - (m2lnl + len(subset) * np.log(2 * r2.size))
     if not (gain > BIC_MARGIN and fit.success):
         return kept()
