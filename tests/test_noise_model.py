@@ -178,3 +178,14 @@ def test_reader_noise_terms_per_form(tmp_path):
     _, _, _, rf = case_draws("c", 1, tmp_path, np.random.default_rng(4))
     assert [(t.name, t.default) for t in rf[0].noise_terms] == [("s_relative", False), ("s_floor", True)]
     np.testing.assert_allclose(rf[0].noise_terms[1].coefficient, rf[0].sigma_lnmag**2)
+
+
+def test_auto_ranks_with_the_single_shape_then_refits_the_chosen_model_with_its_noise_model(tmp_path):
+    _, truth, bound, measurements = case_draws("b", 1, tmp_path, np.random.default_rng(6))
+    selection = ft.fit_auto(measurements[0], ["Rs + Ls + C1", "Rs + C1", "Rs + Ls + C1 || Rleak"],
+                            intervals="none")
+    chosen = selection.chosen
+    assert chosen.circuit.expression == "Rs + Ls + C1"
+    assert "from the data" in chosen.noise_model and "fitted again with the noise model" in selection.reason
+    for name in truth:  # within 4 Cramer-Rao sigmas of the truth
+        assert abs(chosen.parameters[name].value - truth[name]) < 4 * bound[name]

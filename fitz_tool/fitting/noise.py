@@ -85,7 +85,7 @@ class NoiseModel:
             return "no noise left in the residuals (exact data)"
         text = " plus ".join(parts)
         if self.default:
-            return f"{text} (the single-shape model; no added term lowers the BIC)"
+            return f"{text} (the single-shape model: no added term lowers the BIC by over {BIC_MARGIN:g})"
         return f"{text} (from the data; BIC {self.bic_gain:.0f} lower than the single-shape model)"
 
 
