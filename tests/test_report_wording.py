@@ -11,13 +11,13 @@ from test_derived import synthetic_result
 from fitz_tool.inspection import Band, InspectionSummary, Resonance, character_sentence
 from fitz_tool.measurement import Measurement, Provenance
 from fitz_tool.outputs.wording import (
-    FORM_WORDS,
     describe_form,
     fit_quality,
     plain_message,
     quality_sentence,
     two_digits,
 )
+from fitz_tool.readers.forms import INPUT_FORMS, OTHER_FORMS, form_words
 from fitz_tool.units import for_terminal, format_interval, format_quantity, to_ascii, with_symbols
 
 
@@ -63,12 +63,34 @@ def test_optimiser_messages_in_plain_words():
     assert plain_message("something new") == "something new"
 
 
-def test_every_reader_form_code_has_words():
-    for code in ("v_shunt", "z_polar", "z_rect", "ratio", "v_i_phasors", "touchstone_s11",
-                 "touchstone_s21_shunt", "touchstone_s21_series", "simulator_complex"):
-        assert code in FORM_WORDS and "_" not in FORM_WORDS[code]
-    m = Measurement(np.array([1e3, 2e3]), np.array([1 + 1j, 1 + 2j]), provenance=Provenance(form="lcr_cs_rs"))
-    assert describe_form(m) == "LCR-meter readings (series capacitance and series resistance)"
+#: What the reports said of each recorded form before the words had one home (the text must not change).
+SAID = {
+    "z_polar": "impedance magnitude and phase",
+    "touchstone_s11": "network-analyzer reflection (S11, Touchstone)",
+    "touchstone_s21_shunt": "network-analyzer transmission S21, part shunted across the through line "
+                            "(Touchstone)",
+    "touchstone_s21_series": "network-analyzer transmission S21, part in series with the line (Touchstone)",
+    "simulator_complex": "complex values from a circuit-simulator export",
+    "synthetic": "data built in code",
+    "lcr_cs_rs": "LCR-meter readings (series capacitance and series resistance)",
+}
+
+
+def _in_code(form: str, description: str = "") -> Measurement:
+    return Measurement(np.array([1e3, 2e3]), np.array([1 + 1j, 1 + 2j]),
+                       provenance=Provenance(form=form, description=description))
+
+
+def test_every_recorded_form_has_words_from_one_home():
+    codes = ["v_shunt", *(f.recorded or name for name, f in INPUT_FORMS.items()), *OTHER_FORMS]
+    for code in codes:
+        words = describe_form(_in_code(code))
+        assert words == form_words(code) and words and "_" not in words and "?" not in words, code
+    for code, said in SAID.items():
+        assert describe_form(_in_code(code)) == said
+    assert describe_form(_in_code("v_shunt")) == "voltage across the part and across a series current shunt"
+    assert describe_form(_in_code("z_polar", "what the reader said")) == "what the reader said"
+    assert describe_form(_in_code("some_new_form")) == "some new form"
 
 
 def test_quality_without_stated_noise_is_the_residual_scatter():

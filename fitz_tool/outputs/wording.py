@@ -1,8 +1,9 @@
 """Plain words for what the user reads: how the data was read, what the optimiser said, how good the fit is.
 
-One table maps the readers' internal form codes to a description; the optimiser's own messages are translated
-into sentences; the fit quality is told as the residual scatter (noise not stated) or as chi-square with its
-p-value (noise stated, absolute weights).
+The words for what was read come from their one home beside the table of input forms
+(``readers.forms.form_words``, Touchstone and in-code forms included); the optimiser's own messages are
+translated into sentences; the fit quality is told as the residual scatter (noise not stated) or as chi-square
+with its p-value (noise stated, absolute weights).
 """
 
 from __future__ import annotations
@@ -13,47 +14,21 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..measurement import Measurement
+from ..readers.forms import form_words
 from ..results import FitResult
 
-__all__ = ["FORM_WORDS", "describe_form", "plain_message", "FitQuality", "fit_quality", "verdict"]
-
-#: Input form code (``Provenance.form``) -> what was read, in words.
-FORM_WORDS: dict[str, str] = {
-    "v_i_phasors": "voltage and current phasors (amplitude and phase of each)",
-    "v_i": "voltage and current phasors (amplitude and phase of each)",
-    "v_i_difference": "voltage and current amplitudes with the phase of voltage relative to current",
-    "v_shunt": "voltage across the part and across a series current shunt (amplitude and phase of each)",
-    "z_polar": "impedance magnitude and phase",
-    "z_rect": "resistance and reactance (R and X)",
-    "z_complex": "complex impedance values",
-    "ratio": "transfer ratio of part voltage to reference-resistor voltage (gain and phase)",
-    "simulator_complex": "complex values from a circuit-simulator export",
-    "touchstone_s11": "network-analyzer reflection (S11, Touchstone)",
-    "touchstone_s21_shunt": "network-analyzer transmission S21, part shunted across the through line "
-                            "(Touchstone)",
-    "touchstone_s21_series": "network-analyzer transmission S21, part in series with the line (Touchstone)",
-    "synthetic": "data built in code",
-}
-
-_LCR_WORDS = {"cs": "series capacitance", "cp": "parallel capacitance", "ls": "series inductance",
-              "lp": "parallel inductance", "rs": "series resistance", "rp": "parallel resistance",
-              "d": "dissipation factor D", "q": "quality factor Q", "x": "reactance", "z": "|Z|",
-              "theta": "phase", "esr": "ESR", "g": "conductance", "b": "susceptance"}
+__all__ = ["describe_form", "plain_message", "FitQuality", "fit_quality", "verdict"]
 
 
 def describe_form(measurement: Measurement) -> str:
-    """What was read, in words (a reader's own ``description`` in the provenance wins when present)."""
+    """What was read, in words: the reader's own ``description`` in the provenance when present, else the
+    words of the recorded form from their one home, ``readers.forms.form_words``."""
     prov = measurement.provenance
     own = getattr(prov, "description", "")
     if own:
         return str(own)
     form = prov.form or ""
-    if form in FORM_WORDS:
-        return FORM_WORDS[form]
-    if form.startswith("lcr_"):
-        parts = [_LCR_WORDS.get(p, p) for p in form[4:].replace("-", "_").split("_") if p]
-        return "LCR-meter readings (" + " and ".join(parts) + ")" if parts else "LCR-meter readings"
-    return form.replace("_", " ") if form else "impedance data"
+    return form_words(form) or (form.replace("_", " ") if form else "impedance data")
 
 
 #: Raw optimiser texts (scipy / lmfit) -> plain words. Matched as substrings, longest first.

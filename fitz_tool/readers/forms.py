@@ -43,8 +43,8 @@ if TYPE_CHECKING:
     from .columns import ColumnPlan
 
 __all__ = ["AMPLITUDE_ROLES", "VOLTAGE_BASES", "unit_label", "understood", "refuse_unknown_unit",
-           "convert_columns", "InputForm", "INPUT_FORMS", "SHUNT_FORM", "form_words", "build_impedance",
-           "stated_sigmas", "noise_terms"]
+           "convert_columns", "InputForm", "INPUT_FORMS", "SHUNT_FORM", "OTHER_FORMS", "form_words",
+           "build_impedance", "stated_sigmas", "noise_terms"]
 
 #: Roles whose values are magnitudes (never negative).
 AMPLITUDE_ROLES = ("v_amplitude", "i_amplitude", "z_magnitude", "ratio_magnitude")
@@ -282,7 +282,7 @@ def _lcr(form: str) -> Converter:
 
 _LCR_WORDS = {"cs": "series capacitance", "ls": "series inductance", "cp": "parallel capacitance",
               "lp": "parallel inductance", "rs": "series resistance", "rp": "parallel resistance",
-              "d": "dissipation factor", "q": "quality factor"}
+              "d": "dissipation factor D", "q": "quality factor Q"}
 
 #: The input forms of a delimited table, in order of preference (the first complete one is read).
 INPUT_FORMS: dict[str, InputForm] = {
@@ -293,23 +293,44 @@ INPUT_FORMS: dict[str, InputForm] = {
     "v_i_difference": InputForm(("frequency", "v_amplitude", "i_amplitude", "z_phase"), _v_i_difference,
                                 "voltage across the part and {current}", "v_i_phasors"),
     "ratio": InputForm(("frequency", "ratio_magnitude", "ratio_phase"), _ratio,
-                       "part voltage over the voltage across a {reference} ohm reference resistor"),
-    **{form: InputForm(roles, _lcr(form), "LCR-meter readings: " + " and ".join(
-        _LCR_WORDS[k] for k in form.split("_")[1:]))
+                       "part voltage over the voltage across a {reference}reference resistor"),
+    **{form: InputForm(roles, _lcr(form), "LCR-meter readings (" + " and ".join(
+        _LCR_WORDS[k] for k in form.split("_")[1:]) + ")")
        for form, roles in LCR_FORMS.items()},
 }
 #: A V/I form whose current column is a shunt voltage is recorded under this name.
 SHUNT_FORM = "v_shunt"
+#: Forms read outside the table (Touchstone, circuit-simulator cells, fixture de-embedding, data built in
+#: code), by the name recorded in ``Provenance.form``, in words.
+OTHER_FORMS: dict[str, str] = {
+    "touchstone_s11": "network-analyzer reflection (S11, Touchstone)",
+    "touchstone_s21_shunt": "network-analyzer transmission S21, part shunted across the through line "
+                            "(Touchstone)",
+    "touchstone_s21_series": "network-analyzer transmission S21, part in series with the line (Touchstone)",
+    "touchstone_2port_shunt": "network-analyzer two-port of the part in a fixture, de-embedded, part shunted "
+                              "across the through line (Touchstone)",
+    "touchstone_2port_series": "network-analyzer two-port of the part in a fixture, de-embedded, part in "
+                               "series with the line (Touchstone)",
+    "simulator_complex": "complex values from a circuit-simulator export",
+    "synthetic": "data built in code",
+}
 
 
 def form_words(form: str, shunt: float | None = None, reference: float | None = None) -> str | None:
-    """What a recorded form (``Provenance.form``) read, in words; None for a form not in the table."""
-    current = f"across a {shunt:g} ohm shunt" if shunt else "across a ? ohm shunt"
-    if form != SHUNT_FORM:
-        current = "current through it"
+    """What a recorded form (``Provenance.form``) read, in words; None for a form fitz_tool does not record.
+
+    The one home of these words: the readers record them, the terminal, JSON and HTML reports show them.
+    ``shunt`` and ``reference`` (ohm) complete the words of the shunt and transfer-ratio forms when known.
+    """
+    if form in OTHER_FORMS:
+        return OTHER_FORMS[form]
+    current = "current through it"
+    if form == SHUNT_FORM:
+        current = f"across a {shunt:g} ohm shunt" if shunt else "across a series current shunt"
     for name, entry in INPUT_FORMS.items():
         if (entry.recorded or name) == form or (form == SHUNT_FORM and "{current}" in entry.description):
-            return entry.description.format(current=current, reference=f"{reference:g}" if reference else "?")
+            return entry.description.format(current=current,
+                                            reference=f"{reference:g} ohm " if reference else "")
     return None
 
 

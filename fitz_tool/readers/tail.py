@@ -20,13 +20,11 @@ from .forms import form_words
 
 __all__ = ["drop_rows", "finish_rows", "describe"]
 
-#: Forms read outside the table of input forms (``forms.INPUT_FORMS``), in words.
-_OTHER_WORDS = {"simulator_complex": "complex values from a circuit-simulator export"}
 
 def describe(form: str, shunt: float | None = None, reference: float | None = None, stated: bool = False,
              columns: Mapping[str, str] | None = None) -> str:
     """What was read, in plain words (``"voltage across the part and across a 0.1 ohm shunt"``)."""
-    text = form_words(form, shunt, reference) or _OTHER_WORDS.get(form, form)
+    text = form_words(form, shunt, reference) or form
     if form == "simulator_complex" and columns:
         if "z_complex" in columns:
             text = f"complex impedance {columns['z_complex']} from a circuit-simulator export"
