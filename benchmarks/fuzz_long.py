@@ -6,7 +6,7 @@
 
 Outcomes: ok (read and equal to the truth of the clean rows), refused (one-line error), traceback, hang
 (over 30 s of CPU time or 300 s of wall time; "max cpu" is the longest case), wrong (a silently wrong
-reading), damaged (an input changed or an output left after a refusal).
+reading), damaged (an input changed or an output left after a refusal); then the count of each exit code.
 Run it with ``nice``: it uses one core.
 """
 
@@ -32,7 +32,7 @@ from hypothesis import HealthCheck, Phase, given, settings  # noqa: E402
 CASES = {"delimited": 1500, "garbage": 1000, "touchstone": 1500, "expression": 600, "options": 600}
 
 
-def run_family(family: str, count: int, problems: list[dict]) -> tuple[Counter, float, float]:
+def run_family(family: str, count: int, problems: list[dict], codes: Counter) -> tuple[Counter, float, float]:
     counts: Counter = Counter()
     slowest = 0.0
     start = time.perf_counter()
@@ -45,6 +45,7 @@ def run_family(family: str, count: int, problems: list[dict]) -> tuple[Counter, 
         with tempfile.TemporaryDirectory() as folder:
             outcome = run_case(case, Path(folder))
         counts[outcome.label] += 1
+        codes[outcome.exit_code] += 1
         slowest = max(slowest, outcome.cpu_seconds)
         if outcome.label not in ("ok", "refused"):
             problems.append({"family": family, "outcome": outcome.label, "detail": outcome.detail,
@@ -62,15 +63,19 @@ def main() -> int:
     args = parser.parse_args()
     problems: list[dict] = []
     total: Counter = Counter()
+    codes: Counter = Counter()
     print(f"{'family':<11} {'cases':>6} " + " ".join(f"{o:>9}" for o in OUTCOMES) + f" {'max cpu':>8} "
           f"{'time':>7}")
     for family, count in CASES.items():
         n = max(1, round(count * args.scale))
-        counts, slowest, seconds = run_family(family, n, problems)
+        counts, slowest, seconds = run_family(family, n, problems, codes)
         total += counts
         print(f"{family:<11} {sum(counts.values()):>6} " + " ".join(f"{counts[o]:>9}" for o in OUTCOMES)
               + f" {slowest:>7.1f}s {seconds:>6.0f}s", flush=True)
     print(f"{'all':<11} {sum(total.values()):>6} " + " ".join(f"{total[o]:>9}" for o in OUTCOMES))
+    print("exit codes: " + ", ".join(f"{'none' if c is None else c}: {n}"
+                                     for c, n in sorted(codes.items(), key=lambda item: (item[0] is None,
+                                                                                        item[0] or 0))))
     if args.report:
         Path(args.report).write_text(json.dumps(problems, indent=1) + "\n")
     for problem in problems[:20]:

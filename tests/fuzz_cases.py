@@ -54,6 +54,7 @@ class Outcome:
     seconds: float
     detail: str = ""
     cpu_seconds: float = 0.0
+    exit_code: int | None = None  # None: no exit (a hang, or an exception that escaped main)
 
 
 class _Hang(BaseException):
@@ -134,14 +135,14 @@ def run_case(case: Case, folder: Path) -> Outcome:
         else:
             label, detail = "traceback", f"exit {code}: {err.getvalue()[-300:]}"
     if _digest(folder, case.files) != before:
-        return Outcome("damaged", seconds, "an input file changed", cpu)
+        return Outcome("damaged", seconds, "an input file changed", cpu, code)
     if label in ("refused", "traceback") and code != 0 and any((folder / o).exists() for o in case.outputs):
-        return Outcome("damaged", seconds, f"output left behind after exit {code}; {detail}", cpu)
+        return Outcome("damaged", seconds, f"output left behind after exit {code}; {detail}", cpu, code)
     if label == "ok" and case.truth is not None:
         problem = _check_oracle(case, folder)
         if problem:
-            return Outcome("wrong", seconds, problem, cpu)
-    return Outcome(label, seconds, detail, cpu)
+            return Outcome("wrong", seconds, problem, cpu, code)
+    return Outcome(label, seconds, detail, cpu, code)
 
 
 # ----------------------------------------------------------------------------------------------- data
