@@ -67,7 +67,7 @@ def test_the_api_takes_the_budget_as_parameters(measurement):
     # One residual over the file already costs len(measurement) evaluations: a cap below that stops at once.
     with pytest.raises(WorkLimitError, match=f"work limit of {len(measurement) - 1:,} model evaluations"):
         fit_auto(measurement, jobs=1, max_evaluations=len(measurement) - 1)
-    assert work._ACTIVE is None  # the budget ends with the call, also when it ran out
+    assert work._ACTIVE.get() is None  # the budget ends with the call, also when it ran out
     with pytest.raises(InputError, match="max_time=-1"):
         fit(measurement, MODEL, max_time=-1)
 
@@ -92,8 +92,35 @@ def test_evaluations_are_counted_per_impedance_value(measurement):
     n = len(measurement)
     with work.work_budget(None, None):
         problem.residual(x)
-        assert work._ACTIVE.used == n
+        assert work._ACTIVE.get().used == n
         problem.jacobian(x)
-        assert work._ACTIVE.used == n + 3 * n
+        assert work._ACTIVE.get().used == n + 3 * n
         problem.batch_cost(np.zeros((5, 3)))
-        assert work._ACTIVE.used == 4 * n + 5 * n
+        assert work._ACTIVE.get().used == 4 * n + 5 * n
+
+
+def test_each_thread_has_its_own_budget(measurement):
+    # a fit with a tiny budget in one thread stops; a fit in another thread at the same time does not share
+    # that budget (nor does a thread started inside a budgeted block inherit it)
+    import threading
+
+    outcome = {}
+
+    def tiny():
+        try:
+            fit(measurement, MODEL, max_evaluations=len(measurement) - 1)
+        except WorkLimitError as error:
+            outcome["tiny"] = str(error)
+
+    def free():
+        outcome["free"] = fit(measurement, MODEL, max_time=None, max_evaluations=None).chi_square
+
+    with work.work_budget(None, max_evaluations=1):
+        threads = [threading.Thread(target=tiny), threading.Thread(target=free)]
+        for thread in threads:
+            thread.start()
+        for thread in threads:
+            thread.join()
+        assert work._ACTIVE.get().used == 0  # nothing the threads did was charged here
+    assert "work limit" in outcome["tiny"]
+    assert outcome["free"] == fit(measurement, MODEL).chi_square

@@ -2,14 +2,18 @@
 
 An evaluation is the circuit's impedance at one frequency (a residual over M points costs M, a Jacobian
 M times the free parameters, a batch of K candidates K M). Every evaluation in :mod:`.problem` is charged
-here; past either limit the fit stops with :class:`WorkLimitError`, which says what to reduce. The budget is
-process-wide (a module global, so forked pool workers inherit the deadline; each counts its own evaluations).
+here; past either limit the fit stops with :class:`WorkLimitError`, which says what to reduce. The budget
+lives in a context variable: each call, and each thread, has its own (a thread started inside a budgeted
+call runs without one); forked pool workers inherit their parent's context, so its deadline, and each counts
+its own evaluations.
 """
 
 from __future__ import annotations
 
+import functools
 import time
 from contextlib import contextmanager
+from contextvars import ContextVar
 from dataclasses import dataclass
 
 from ..exceptions import InputError, WorkLimitError
@@ -34,7 +38,8 @@ class _Budget:
     used: int = 0
 
 
-_ACTIVE: _Budget | None = None
+#: The budget of the call running in this context (None: no limit).
+_ACTIVE: ContextVar[_Budget | None] = ContextVar("fitz_tool_work_budget", default=None)
 
 
 def _check_limit(value, what: str) -> None:
@@ -46,23 +51,22 @@ def _check_limit(value, what: str) -> None:
 def work_budget(max_time: float | None = DEFAULT_MAX_TIME,
                 max_evaluations: int | None = DEFAULT_MAX_EVALUATIONS):
     """Limit the work inside the block; a budget already running (an outer call) is kept as it is."""
-    global _ACTIVE
-    if _ACTIVE is not None:
+    if _ACTIVE.get() is not None:
         yield
         return
     _check_limit(max_time, "max_time")
     _check_limit(max_evaluations, "max_evaluations")
     deadline = None if max_time is None else time.monotonic() + float(max_time)
-    _ACTIVE = _Budget(deadline, max_time, max_evaluations)
+    token = _ACTIVE.set(_Budget(deadline, max_time, max_evaluations))
     try:
         yield
     finally:
-        _ACTIVE = None
+        _ACTIVE.reset(token)
 
 
 def charge(evaluations: int) -> None:
     """Count ``evaluations`` model values; raise WorkLimitError past the time or the evaluation limit."""
-    budget = _ACTIVE
+    budget = _ACTIVE.get()
     if budget is None:
         return
     budget.used += int(evaluations)
@@ -77,8 +81,6 @@ def charge(evaluations: int) -> None:
 def budgeted(function):
     """Give ``function`` the keyword arguments ``max_time`` and ``max_evaluations`` (defaults above): its
     whole call runs inside :func:`work_budget`."""
-    import functools
-
     @functools.wraps(function)
     def wrapper(*args, max_time: float | None = DEFAULT_MAX_TIME,
                 max_evaluations: int | None = DEFAULT_MAX_EVALUATIONS, **kwargs):
