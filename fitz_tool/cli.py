@@ -488,7 +488,9 @@ def _cmd_fit(args) -> int:
     if args.curve:
         from .outputs.report import curve_table
 
-        outputs[args.curve] = curve_table(result).to_csv(index=False)
+        buffer = io.BytesIO()  # bytes straight away: a long sweep's table is held once, not as text and bytes
+        curve_table(result).to_csv(buffer, index=False, encoding="utf-8")
+        outputs[args.curve] = buffer.getvalue()
     if args.spice:
         from .outputs.spice import to_spice_subcircuit
 

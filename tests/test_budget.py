@@ -255,3 +255,15 @@ def test_a_common_gain_and_phase_error_passes_open_short_unchanged_and_cancels_w
     assert open_short == pytest.approx(k * z_dut, rel=1e-9)
     with_load = compensate_fixture(m, open=z_open, short=z_short, load=z_load, load_value=50.0).impedance
     assert with_load == pytest.approx(z_dut, rel=1e-9)
+
+
+def test_monte_carlo_draws_past_zero_give_no_design_values():
+    # Cp known to +/- 2000 %: about half of the normal draws of Cp are negative, which is no circuit, so
+    # the design values get no Monte Carlo check (under 90 % usable draws); every parameter keeps its own
+    from test_derived import synthetic_result
+
+    result = synthetic_result(rel_noise=0.3, phase_noise=0.3, frequency=np.geomspace(1e3, 1e6, 30))
+    assert result.parameters["Cp"].stderr > 10 * result.parameters["Cp"].value
+    budget = uncertainty_budget(result, None, (1e5,), monte_carlo=200)
+    assert all(entry.monte_carlo is None for entry in budget.design.values())
+    assert all(e.monte_carlo is not None and e.monte_carlo.agrees for e in budget.parameters.values())
