@@ -1,6 +1,11 @@
-"""Property tests (hypothesis): tables generated from a known impedance in random layouts read back exactly;
-random garbage gives a clean InputError, never a traceback; random unit words on role columns are read right
-or refused, never taken in an assumed unit.
+"""Property tests (hypothesis): tables generated from a known impedance in random layouts read back within
+1e-9, by their headers and by --map; random garbage gives a clean InputError, never a traceback; random unit
+words on role columns are read right or refused, never taken in an assumed unit.
+
+Layouts: the forms |Z|-phase (|Z| with SI prefixes or in dBOhm), R-X, V-I, V and a shunt voltage, and a
+transfer ratio (dB, V/V or no unit, with --reference); delimiters, decimal commas, units after a space or an
+underscore or in () or [] (nested for conventions), pk/pp/rms before or after, dBV/dBmV/dBuV/dBA levels,
+dBm into 50 or 600 ohm, rad/s, text columns, row order.
 
 Check values: the impedance of a series R-L with a parallel C, computed here with numpy, and the level
 relations of the trade (peak = sqrt(2) rms = pp / 2; L_dBV = 20 log10(V_rms / 1 V); dBm: P = V_rms^2 / R re
@@ -29,11 +34,14 @@ def _header(name: str, unit: str, style: str) -> str:
     if not unit:
         return name
     return {"paren": f"{name} ({unit})", "bracket": f"{name} [{unit}]", "space": f"{name} {unit}",
-            "underscore": f"{name}_{unit}"}[style]
+            "underscore": f"{name}_{unit.replace(' ', '_')}"}[style]
 
 
 @st.composite
 def layouts(draw):
+    """A table of a known impedance in a random layout: (f Hz, Z ohm, columns, delimiter, decimal sign, row
+    order, read options). Columns are (header, cells); on the --map route the role columns have neutral
+    names (``c2 (mV rms)``) and the options carry the map."""
     n = draw(st.integers(3, 10))
     decades = draw(st.lists(st.floats(2.0, 7.0), min_size=n, max_size=n, unique=True))
     f = 10.0 ** np.array(sorted(decades))
@@ -42,13 +50,13 @@ def layouts(draw):
     r, ind, c = draw(st.floats(1e-3, 1e3)), draw(st.floats(1e-9, 1e-3)), draw(st.floats(1e-13, 1e-6))
     w = 2 * np.pi * f
     z = 1 / (1 / (r + 1j * w * ind) + 1j * w * c)
-    form = draw(st.sampled_from(["z_polar", "z_rect", "v_i", "v_shunt"]))
+    form = draw(st.sampled_from(["z_polar", "z_rect", "v_i", "v_shunt", "ratio"]))
     style = draw(st.sampled_from(["paren", "bracket", "space", "underscore"]))
     delimiter = draw(st.sampled_from([",", ";", "\t"]))
     decimal = "." if delimiter == "," else draw(st.sampled_from([".", ","]))
     f_unit = draw(st.sampled_from(["Hz", "kHz", "MHz", "GHz", "rad/s", ""]))
     f_scale = {"Hz": 1, "kHz": 1e-3, "MHz": 1e-6, "GHz": 1e-9, "rad/s": 2 * np.pi, "": 1}[f_unit]
-    columns = [(_header("Frequency", f_unit, style), f * f_scale)]
+    roles = [("frequency", "Frequency", f_unit, style, f * f_scale)]  # (role, name, unit, style, cells)
     phase_unit = draw(st.sampled_from(["deg", "rad", "°", ""]))
     phase_style = "paren" if phase_unit == "°" else style
 
@@ -56,47 +64,64 @@ def layouts(draw):
         return value if phase_unit == "rad" else np.degrees(value)
 
     options = {}
-    if form in ("z_polar", "z_rect"):
+    if form == "z_polar":
+        prefix = draw(st.sampled_from(["", "m", "k", "M", "dB"]))
+        ohm = draw(st.sampled_from(["Ohm", "Ω", "ohm"]))
+        # |Z| in dB re 1 ohm: L = 20 log10(|Z| / 1 ohm) (common practice, no source)
+        magnitude = 20 * np.log10(abs(z)) if prefix == "dB" else abs(z) / PREFIX[prefix]
+        roles += [("z_magnitude", "|Z|", prefix + ohm, style, magnitude),
+                  ("z_phase", "Phase", phase_unit, phase_style, phase(np.angle(z)))]
+    elif form == "z_rect":
         prefix = draw(st.sampled_from(["", "m", "k", "M"]))
         ohm = draw(st.sampled_from(["Ohm", "Ω", "ohm"]))
-        scale = 1 / PREFIX[prefix]
-        if form == "z_polar":
-            columns += [(_header("|Z|", prefix + ohm, style), abs(z) * scale),
-                        (_header("Phase", phase_unit, phase_style), phase(np.angle(z)))]
-        else:
-            columns += [(_header("R", prefix + ohm, style), z.real * scale),
-                        (_header("X", prefix + ohm, style), z.imag * scale)]
+        roles += [("z_real", "R", prefix + ohm, style, z.real / PREFIX[prefix]),
+                  ("z_imag", "X", prefix + ohm, style, z.imag / PREFIX[prefix])]
+    elif form == "ratio":
+        options["reference"] = draw(st.sampled_from([10.0, 50.0, 1000.0]))
+        h = z / options["reference"]  # the reference resistor carries the part's current
+        gain = draw(st.sampled_from(["dB", "V/V", ""]))
+        roles += [("ratio_magnitude", "Gain", gain, style if gain == "dB" else "paren",
+                   20 * np.log10(abs(h)) if gain == "dB" else abs(h)),
+                  ("ratio_phase", "Phase", phase_unit, phase_style, phase(np.angle(h)))]
     else:
         current = draw(st.floats(1e-4, 1.0)) * np.exp(1j * draw(st.floats(-3.0, 3.0)))
         shunt = draw(st.sampled_from([0.01, 0.1, 1.0, 10.0]))
         v = z * current
         i_col = (current * shunt if form == "v_shunt" else current) * np.ones_like(z)
-        for name, ph_name, value, base in (("Voltage", "Phase V", v, "V"),
-                                           ("Shunt voltage" if form == "v_shunt" else "Current",
-                                            "Shunt phase" if form == "v_shunt" else "Phase I", i_col,
-                                            "V" if form == "v_shunt" else "A")):
+        dbm_reference = draw(st.sampled_from([50.0, 600.0]))
+        shunted = form == "v_shunt"
+        for role, name, ph_name, value, base in (
+                ("v", "Voltage", "Phase V", v, "V"),
+                ("i", "Shunt voltage" if shunted else "Current", "Shunt phase" if shunted else "Phase I",
+                 i_col, "V" if shunted else "A")):
             kind = draw(st.sampled_from(["linear", "db"] + (["dbm"] if base == "V" else [])))
             if kind == "db":
                 prefix = draw(st.sampled_from(["", "m", "u", "µ"]))
                 level = 20 * np.log10(abs(value) / math.sqrt(2) / PREFIX[prefix])
-                columns.append((_header(name, f"dB{prefix}{base}", "paren" if style == "space" else style),
-                                level))
+                roles.append((f"{role}_amplitude", name, f"dB{prefix}{base}", style, level))
             elif kind == "dbm":
-                options["dbm_reference"] = 50.0
-                level = 10 * np.log10((abs(value) / math.sqrt(2)) ** 2 / 50.0 / 1e-3)
-                columns.append((_header(name, "dBm", style), level))
+                options["dbm_reference"] = dbm_reference
+                level = 10 * np.log10((abs(value) / math.sqrt(2)) ** 2 / options["dbm_reference"] / 1e-3)
+                roles.append((f"{role}_amplitude", name, "dBm", style, level))
             else:
                 prefix = draw(st.sampled_from(["", "m", "u", "µ", "k"]))
                 conv = draw(st.sampled_from(["pk", "rms", "pp"]))
                 where = draw(st.sampled_from(["after", "before", "nested"]))
                 unit = {"after": f"{prefix}{base} {conv}", "before": f"{conv} {prefix}{base}",
                         "nested": f"{prefix}{base}({conv})"}[where]
-                unit_style = "bracket" if where == "nested" else ("paren" if style == "underscore" else style)
                 amplitude = abs(value) / PREFIX[prefix] / PEAK_PER[conv]
-                columns.append((_header(name, unit, unit_style), amplitude))
-            columns.append((_header(ph_name, phase_unit, phase_style), phase(np.angle(value))))
+                roles.append((f"{role}_amplitude", name, unit, "bracket" if where == "nested" else style,
+                              amplitude))
+            roles.append((f"{role}_phase", ph_name, phase_unit, phase_style, phase(np.angle(value))))
         if form == "v_shunt":
             options["shunt"] = shunt
+    by_map = draw(st.booleans())
+    columns = []
+    for k, (role, name, unit, unit_style, cells) in enumerate(roles):
+        header = _header(f"c{k + 1}" if by_map else name, unit, unit_style)
+        columns.append((header, cells))
+        if by_map:
+            options.setdefault("column_map", {})[role] = header
     texts = draw(st.lists(st.sampled_from(["Status", "Comment", "Timestamp", "Range"]), unique=True,
                           max_size=3))
     for text in texts:
@@ -105,6 +130,7 @@ def layouts(draw):
                  "Timestamp": [f"2026-12-01 10:00:{k:02d}" for k in range(n)], "Range": ["AUTO"] * n}[text]
         columns.insert(draw(st.integers(0, len(columns))), (text, cells))
     order = draw(st.permutations(range(n)))
+    event(f"form {form}{' by --map' if by_map else ''}")
     return f, z, columns, delimiter, decimal, order, options
 
 

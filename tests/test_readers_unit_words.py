@@ -125,6 +125,17 @@ def test_a_unit_before_trailing_qualifiers_and_labels_is_read(tmp_path):
     assert m.provenance.units["v_amplitude"] == "mV" and m.provenance.units["i_amplitude"] == "mA"
 
 
+def test_a_convention_in_brackets_after_a_unit_word_and_a_volt_before_a_convention(tmp_path):
+    # "Voltage mV (rms)" is mV rms (not volts rms); "Shunt voltage V pp" is a shunt voltage (not amperes)
+    shunt = 0.1
+    path = write(tmp_path, ["Frequency", "Voltage mV (rms)", "Phase V", "Shunt voltage V pp", "Shunt phase"],
+                 [F, abs(V_PK) * 1e3 / math.sqrt(2), deg(V_PK), abs(I_PK) * shunt * 2, deg(I_PK)])
+    m = read_measurement(path, ReadOptions(shunt=shunt))
+    np.testing.assert_allclose(m.impedance, Z, rtol=1e-12)
+    assert m.provenance.form == "v_shunt"
+    assert m.provenance.units["v_amplitude"] == "mV rms" and m.provenance.units["i_amplitude"] == "V pp"
+
+
 def test_lcr_headers_with_a_qualifier(tmp_path):
     # Ls and Q of a series R-L: Q = w L / R (common practice, no source)
     r, ind = 0.5, 22e-6

@@ -238,8 +238,8 @@ def _word_unit(text: str) -> tuple[str, str, bool]:
         if end <= size:
             continue
         suffix = words[end - size:end]
-        if _is_letter(suffix[0]) and ("_" not in separators[end - size - 1]
-                                    or words[end - size - 1].lower() in _CHANNEL_WORDS):
+        if size == 1 and _is_letter(suffix[0]) and ("_" not in separators[end - size - 1]
+                                                    or words[end - size - 1].lower() in _CHANNEL_WORDS):
             continue
         if parse_unit(" ".join(suffix)) is not None:
             name = "".join(tokens[:2 * (end - size) - 1] + tokens[2 * end - 1:])
@@ -289,6 +289,11 @@ def _split_unit(text: str) -> tuple[str, str, bool]:
             found = left.strip(), right.strip(), True
     if found is None:
         found = _word_unit(text)
+    elif found[2] and not parse_unit(found[1])[1]:  # a convention in brackets after the unit: "V mV (rms)"
+        name, unit, _ = _word_unit(found[0])
+        combined = " ".join(f"{unit} {found[1]}".split())
+        if unit and parse_unit(combined) is not None:
+            found = name, combined, True
     name, unit_text, known = found
     if known and not (unit_text and parse_unit(unit_text)[1]):
         trailing = _unknown_trailing_word(name)
