@@ -167,7 +167,8 @@ _CONVENTION_OF = {"rms": "rms", "eff": "rms", "pp": "pp", "ptp": "pp", "peak": "
 _LONG_PREFIX = {"kilo": "k", "mega": "M", "giga": "G", "milli": "m", "micro": "u", "nano": "n", "pico": "p"}
 _WORD_BASES = {"hz": "Hz", "hertz": "Hz", "rad/s": "rad/s", "rad/sec": "rad/s", "rads": "rad/s",
                "ohm": "ohm", "ohms": "ohm", "\u03c9": "ohm", "v": "V", "volt": "V", "volts": "V", "a": "A",
-               "amp": "A", "amps": "A", "ampere": "A", "amperes": "A"}
+               "amp": "A", "amps": "A", "ampere": "A", "amperes": "A", "farad": "F", "farads": "F",
+               "henry": "H", "henrys": "H", "henries": "H"}
 _UNPREFIXED = {"deg": "deg", "degree": "deg", "degrees": "deg", "\u00b0": "deg", "rad": "rad",
                "radian": "rad", "radians": "rad", "%": "%", "v/v": "", "db": "dB", "dbc": "dB"}
 _DB = re.compile(r"(?i)^db\s*(?:\(\s*)?(?P<ref>[a-z\u00b5\u03bc\u03c9\u2126]*)(?:\s*\))?$")
@@ -213,7 +214,8 @@ def read_unit(text: str) -> tuple[str, str, str | None] | None:
     """Read a unit as headers write it; None when it is not one fitz_tool understands.
 
     Understood: any SI prefix (``u``, ``µ`` and ``μ`` micro; ``m`` milli, ``M``/``meg`` mega; also spelled
-    out, ``kilo``...) on Hz, rad/s, V, A, ohm (``Ω``), F, H; deg (``°``), rad, %, ``V/V``; dB (a ratio),
+    out, ``kilo``...) on Hz, rad/s, V, A, ohm (``Ω``), F, H (also spelled out: hertz, volt, ampere, farad,
+    henry); deg (``°``), rad, %, ``V/V``; dB (a ratio),
     dBV/dBmV/dBuV and dBA/dBmA/dBuA (levels re 1 V or 1 A rms, or re the stated convention), dBm (power re
     1 mW), dBOhm (|Z| re 1 ohm); an amplitude convention (rms, pk/peak, pp/p-p/pk-pk/peak-to-peak) before or
     after a voltage or current unit, or alone. Brackets inside (``mV(rms)``) are read as spaces.

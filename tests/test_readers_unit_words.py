@@ -145,6 +145,15 @@ def test_lcr_headers_with_a_qualifier(tmp_path):
     np.testing.assert_allclose(m.impedance, r + 1j * W * ind, rtol=1e-12)
 
 
+def test_capacitance_with_its_unit_spelled_out_after_a_space(tmp_path):
+    # Cs and Rs of a series R-C: Z = Rs + 1 / (j w Cs) (common practice, no source)
+    r, cap = 0.02, 4.7e-6
+    path = write(tmp_path, ["Frequency Hz", "Cs microfarad", "Rs Ohm"],
+                 [F, np.full(F.size, cap * 1e6), np.full(F.size, r)])
+    m = read_measurement(path)
+    np.testing.assert_allclose(m.impedance, r + 1 / (1j * W * cap), rtol=1e-12)
+
+
 def test_an_unknown_word_in_an_unused_column_is_only_ignored(tmp_path):
     path = write(tmp_path, [*POLAR, "Temperature probe", "Bias furlongs"],
                  [F, abs(Z), deg(Z), np.full(F.size, 23.0), np.zeros(F.size)])

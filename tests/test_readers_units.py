@@ -159,7 +159,8 @@ def test_impedance_units(tmp_path, unit, scale):
     ("GHz", ("G", "Hz", None)), ("rad/s", ("", "rad/s", None)), ("°", ("", "deg", None)),
     ("mV(rms)", ("m", "V", "rms")), ("rms mV", ("m", "V", "rms")), ("Vp-p", ("", "V", "pp")),
     ("dBmV", ("m", "dBV", "rms")), ("dBm", ("", "dBm", None)), ("MΩ", ("M", "ohm", None)),
-    ("kilohm", ("k", "ohm", None)), ("furlongs", None), ("Hz rms", None), ("mdB", None), ("", None),
+    ("kilohm", ("k", "ohm", None)), ("microfarad", ("u", "F", None)), ("nH", ("n", "H", None)),
+    ("Henries", ("", "H", None)), ("furlongs", None), ("Hz rms", None), ("mdB", None), ("", None),
 ])
 def test_unit_grammar(text, expected):
     assert read_unit(text) == expected
