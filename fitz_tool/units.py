@@ -218,7 +218,8 @@ def read_unit(text: str) -> tuple[str, str, str | None] | None:
     henry); deg (``°``), rad, %, ``V/V``; dB (a ratio),
     dBV/dBmV/dBuV and dBA/dBmA/dBuA (levels re 1 V or 1 A rms, or re the stated convention), dBm (power re
     1 mW), dBOhm (|Z| re 1 ohm); an amplitude convention (rms, pk/peak, pp/p-p/pk-pk/peak-to-peak) before or
-    after a voltage or current unit, or alone. Brackets inside (``mV(rms)``) are read as spaces.
+    after a voltage or current unit, or alone. Brackets inside (``mV(rms)``) are read as spaces. In capitals,
+    ``M`` on V, A or ohm (``MV``, ``MA``, ``MOHM``) is refused: milli and mega cannot be told apart.
 
     Returns
     -------
@@ -265,6 +266,9 @@ def read_unit(text: str) -> tuple[str, str, str | None] | None:
     prefix, base = prefixed
     if convention is not None and base not in ("V", "A"):
         return None
+    if (prefix == "M" and base in ("V", "A", "ohm") and compact.isascii() and compact.isupper()
+            and not compact.startswith("MEG")):
+        return None  # "MV", "MOHM" in capitals: milli or mega cannot be told, so refused, never guessed
     return prefix, base, convention
 
 # --- display: intervals and unit symbols ------------------------------------------------------------

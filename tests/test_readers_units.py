@@ -160,7 +160,9 @@ def test_impedance_units(tmp_path, unit, scale):
     ("mV(rms)", ("m", "V", "rms")), ("rms mV", ("m", "V", "rms")), ("Vp-p", ("", "V", "pp")),
     ("dBmV", ("m", "dBV", "rms")), ("dBm", ("", "dBm", None)), ("MΩ", ("M", "ohm", None)),
     ("kilohm", ("k", "ohm", None)), ("microfarad", ("u", "F", None)), ("nH", ("n", "H", None)),
-    ("Henries", ("", "H", None)), ("furlongs", None), ("Hz rms", None), ("mdB", None), ("", None),
+    ("Henries", ("", "H", None)), ("MEGOHM", ("M", "ohm", None)), ("MHZ", ("M", "Hz", None)),
+    ("MV", None), ("MA", None), ("MOHM", None), ("furlongs", None), ("Hz rms", None), ("mdB", None),
+    ("", None),
 ])
 def test_unit_grammar(text, expected):
     assert read_unit(text) == expected
@@ -181,3 +183,10 @@ def test_cli_refusal_is_one_line(tmp_path, capsys):
     assert main(["inspect", str(path)]) == 2
     err = capsys.readouterr().err.strip()
     assert "furlongs" in err and len(err.splitlines()) == 1 and "Traceback" not in err
+
+
+def test_capital_m_on_volts_amperes_or_ohms_is_refused_not_guessed(tmp_path):
+    # an export in capitals writes mV and MV alike; a factor 1e9 must never pass unnoticed
+    path = write(tmp_path, ["FREQUENCY (HZ)", "IMPEDANCE (MOHM)", "PHASE (DEG)"], [F, abs(Z) * 1e3, deg(Z)])
+    with pytest.raises(InputError, match="unit 'MOHM' is not understood"):
+        read_measurement(path)
