@@ -108,6 +108,20 @@ def test_natural_headers_without_a_unit_still_read(tmp_path, headers):
     np.testing.assert_allclose(m.impedance, Z, rtol=1e-12)
 
 
+@pytest.mark.parametrize("headers", [
+    ["Freq", "V Ch1", "Phase Ch1", "I probe", "Phase Ch2"],
+    ["Frequency", "Voltage", "Voltage phase", "Current probe", "Current probe phase"],
+    ["Frequency", "V(out)", "Phase V(out)", "I(R1)", "Phase I(R1)"],
+    ["Frequency", "Voltage monitor", "Voltage monitor phase", "Current sensor", "Current sensor phase"],
+])
+def test_probe_words_and_simulator_probe_names_are_part_of_the_name(tmp_path, headers):
+    """A current probe or a simulator probe name (V(out), I(R1)) ends a header without being a unit."""
+    path = write(tmp_path, headers, [F, abs(V_PK), deg(V_PK), abs(I_PK), deg(I_PK)])
+    m = read_measurement(path)
+    np.testing.assert_allclose(m.impedance, Z, rtol=1e-12)
+    assert m.provenance.columns["i_amplitude"] == headers[3]
+
+
 def test_trace_numbers_and_channel_letters_are_labels_not_units(tmp_path):
     path = write(tmp_path, ["Frequency", "Trace 1 Magnitude", "Trace 1 Phase", "Trace 2 Temperature"],
                  [F, abs(Z), deg(Z), np.ones(F.size)])

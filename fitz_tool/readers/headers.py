@@ -58,7 +58,7 @@ QUALIFIERS = {"part", "component", "comp", "difference", "diff", "delta", "shift
               "input", "output", "out", "ref", "reference", "signal", "sig", "trace", "trc", "marker", "mkr",
               "ch", "chan", "channel", "median", "smoothed", "filtered", "fundamental", "fund", "linear",
               "lin", "total", "through", "thru", "factor", "sigma", "std", "stdev", "stddev", "dev", "unc",
-              "uncertainty"}
+              "uncertainty", "probe", "monitor", "mon", "sensor", "clamp", "node", "port", "pin"}
 _COMPOUNDS = {  # single tokens that carry subject and convention, e.g. "Vpp"
     "vpp": ("voltage", "pp"), "vrms": ("voltage", "rms"), "vpk": ("voltage", "peak"),
     "vpeak": ("voltage", "peak"), "ipp": ("current", "pp"), "irms": ("current", "rms"),
@@ -167,6 +167,12 @@ def _is_name_text(text: str) -> bool:
                for t in tokens)
 
 
+def _is_probe_label(word: str) -> bool:
+    """A simulator-style probe name such as ``V(out)`` or ``I(R1)``: a function word and its argument."""
+    found = re.fullmatch(r"([^\W\d_]+)\((.+)\)", word)
+    return found is not None and found.group(1).lower() in _FUNCTIONS
+
+
 def _is_label(word: str) -> bool:
     """A number or channel/trace label (``1``, ``#2``, ``Ch1``, ``tr2``, ``S21``, ``2a``): never a unit."""
     return bool(_LABEL.fullmatch(word.lower()))
@@ -262,7 +268,7 @@ def _unknown_trailing_word(name: str) -> tuple[str, str] | None:
     if end < 2:
         return None
     word, before = words[end - 1], words[end - 2].lower()
-    if _is_letter(word) or before in _CHANNEL_WORDS or _is_name_text(word):
+    if _is_letter(word) or before in _CHANNEL_WORDS or _is_name_text(word) or _is_probe_label(word):
         return None
     rest = "".join(tokens[:2 * (end - 1) - 1] + tokens[2 * end - 1:])
     return re.sub(r"^[\s_]+|[\s_]+$", "", rest), word
