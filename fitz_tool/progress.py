@@ -16,7 +16,12 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from contextvars import ContextVar
 
-__all__ = ["wanted", "shown", "bar"]
+__all__ = ["wanted", "shown", "bar", "LONG_READ_LINES", "READ_STEP_LINES"]
+
+#: A file of at least this many lines shows a bar while it is read (on a terminal).
+LONG_READ_LINES = 100_000
+#: Lines read between two updates of a reading bar.
+READ_STEP_LINES = 50_000
 
 #: Process id of the process that shows bars (None: no bars), set by :func:`shown`.
 _SHOWN: ContextVar[int | None] = ContextVar("fitz_tool_progress_shown", default=None)

@@ -10,15 +10,15 @@ import pytest
 
 from fitz_tool import progress
 from fitz_tool.cli import main
-from fitz_tool.readers.delimited import LONG_FILE_LINES
+from fitz_tool.progress import LONG_READ_LINES
 
 
 @pytest.fixture(scope="module")
 def long_choke(tmp_path_factory):
-    """A choke of LONG_FILE_LINES rows (0.5 % noise): long enough for the reading bar."""
+    """A choke of LONG_READ_LINES rows (0.5 % noise): long enough for the reading bar."""
     path = tmp_path_factory.mktemp("progress") / "long_choke.csv"
     rng = np.random.default_rng(7)
-    f = np.logspace(3, 7, LONG_FILE_LINES)
+    f = np.logspace(3, 7, LONG_READ_LINES)
     jw = 2j * np.pi * f
     z = (0.05 + jw * 22e-6) / (1 + (0.05 + jw * 22e-6) * jw * 10e-12)
     z = z * np.exp(0.005 * rng.standard_normal(f.size) + 0.005j * rng.standard_normal(f.size))
@@ -103,3 +103,18 @@ def test_wanted_is_the_one_decision():
 
     assert progress.wanted(False, Terminal()) and not progress.wanted(True, Terminal())
     assert not progress.wanted(False, object())  # a stream without isatty is not a terminal
+
+
+def test_a_long_touchstone_file_shows_its_reading_bar(tmp_path, capsys):
+    # S11 = (Z - 50) / (Z + 50) of a 22 nH coil with 50 mohm (reflection coefficient, common practice)
+    f = np.geomspace(1e6, 1e9, LONG_READ_LINES)
+    z = 0.05 + 2j * np.pi * f * 22e-9
+    s11 = (z - 50) / (z + 50)
+    path = tmp_path / "long_coil.s1p"
+    with path.open("w") as handle:
+        handle.write("# Hz S RI R 50\n")
+        np.savetxt(handle, np.column_stack([f, s11.real, s11.imag]), fmt="%.12g")
+    code, plain_out, err = _run(["inspect", str(path)], capsys, False)
+    assert code == 0 and err == ""
+    code, out, err = _run(["inspect", str(path)], capsys, True)
+    assert code == 0 and "reading long_coil.s1p" in err and out == plain_out

@@ -33,10 +33,11 @@ import numpy as np
 
 from ..exceptions import InputError
 from ..limits import OVERFLOW_MARKER, no_reading_as_nan
+from ..progress import LONG_READ_LINES, READ_STEP_LINES
 from ..progress import bar as progress_bar
 from .headers import parse_unit
 
-__all__ = ["TextTable", "decode_bytes", "split_table", "parse_number", "numeric_column", "LONG_FILE_LINES"]
+__all__ = ["TextTable", "decode_bytes", "split_table", "parse_number", "numeric_column"]
 
 _NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
 _NUMBER_COMMA = re.compile(r"[+-]?(?:\d+(?:,\d*)?|,\d+)(?:[eE][+-]?\d+)?")
@@ -45,9 +46,6 @@ _THOUSANDS_COMMA = re.compile(r"[+-]?\d{1,3}(?:,\d{3})+(?:\.\d*)?(?:[eE][+-]?\d+
 _MISSING = re.compile(r"(?i:nan|-nan|na|n/a|#n/a|none|null|-+|\*+|[+-]?inf(?:inity)?)?")  # inf: no reading
 _DELIMITERS = {"\t": "tab", ";": "semicolon", ",": "comma", " ": "spaces"}
 _COMMENT = ("#", "!", "//")
-#: A file of at least this many lines shows a progress bar while its rows are split (on a terminal).
-LONG_FILE_LINES = 100_000
-_PROGRESS_LINES = 50_000  # lines split between two updates of the bar
 
 
 @dataclass(frozen=True)
@@ -249,9 +247,9 @@ def split_table(text: str, encoding: str, where: str, headerless: bool = False) 
         notes.append(f"skipped {header_index} preamble line(s) above the header (line {header_index + 1})")
     rows, numbers, skipped = [], [], []
     with progress_bar(f"reading {os.path.basename(where)}", len(lines) - header_index - 1, "line",
-                      show=len(lines) >= LONG_FILE_LINES) as bar:
-        for start in range(header_index + 1, len(lines), _PROGRESS_LINES):
-            for k in range(start, min(start + _PROGRESS_LINES, len(lines))):
+                      show=len(lines) >= LONG_READ_LINES) as bar:
+        for start in range(header_index + 1, len(lines), READ_STEP_LINES):
+            for k in range(start, min(start + READ_STEP_LINES, len(lines))):
                 line = lines[k].strip()
                 if not line or k < first:
                     continue
@@ -264,7 +262,7 @@ def split_table(text: str, encoding: str, where: str, headerless: bool = False) 
                                      f"{len(headers)} columns")
                 rows.append(tuple(cells) + ("",) * (len(headers) - len(cells)))
                 numbers.append(k + 1)
-            bar.update(min(start + _PROGRESS_LINES, len(lines)) - start)
+            bar.update(min(start + READ_STEP_LINES, len(lines)) - start)
     if skipped:
         notes.append(f"skipped {len(skipped)} comment or non-table line(s) below the header "
                      f"(line(s) {', '.join(map(str, skipped[:5]))}{'...' if len(skipped) > 5 else ''})")

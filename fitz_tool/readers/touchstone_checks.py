@@ -23,6 +23,8 @@ from pathlib import Path
 
 from ..exceptions import InputError
 from ..limits import MAX_FREQUENCY
+from ..progress import LONG_READ_LINES, READ_STEP_LINES
+from ..progress import bar as progress_bar
 
 __all__ = ["checked_touchstone_text", "named_text"]
 
@@ -115,40 +117,44 @@ def checked_touchstone_text(path: Path, text: str, nports: int) -> tuple[str, li
     rows: list[tuple[int, list[tuple[int, float]]]] = []  # (row number, [(column, value)])
     tail: list[str] = []  # noise data and keywords after the network data
     pending: list[tuple[int, int, float]] = []  # Touchstone 2 values of a row spread over lines
-    for number, raw in enumerate(text.splitlines(), 1):
-        line = raw.split("!", 1)[0].strip()
-        if not line:
-            continue
-        if line.startswith("["):
-            keyword = line[1:].split("]", 1)[0].strip().lower()
-            version2 = version2 or keyword == "version"
-            section = keyword
-            if keyword == "number of frequencies":
-                value = line.split("]", 1)[1].split()
-                if value and value[0].isdigit():
-                    declared = (number, int(value[0]))
-            (tail if rows else head).append(line)
-            continue
-        if line.startswith("#"):
-            if not any(h.startswith("#") for h in head):
-                factor, fmt = _option(path, number, line)
-            (tail if rows else head).append(line)
-            continue
-        if version2 and section != "network data":
-            (tail if rows else head).append(line)
-            continue
-        tokens = line.split()
-        if tail and not version2:
-            tail.append(line)
-            continue
-        if not version2 and not pending and nports == 2 and len(tokens) == 5 and rows and (
-                _number(path, number, 1, tokens[0]) <= rows[-1][1][0][1]):
-            tail.append(line)  # Touchstone 1.x noise parameters (a 5-value row at a frequency not above)
-            continue
-        pending.extend((number, c, _number(path, number, c, t)) for c, t in enumerate(tokens, 1))
-        while len(pending) >= per_row:  # a row may be wrapped over several lines
-            chunk, pending = pending[:per_row], pending[per_row:]
-            rows.append((chunk[0][0], [(c, v) for _, c, v in chunk]))
+    lines = text.splitlines()
+    with progress_bar(f"reading {path.name}", len(lines), "line", show=len(lines) >= LONG_READ_LINES) as bar:
+        for number, raw in enumerate(lines, 1):
+            if number % READ_STEP_LINES == 0:
+                bar.update(READ_STEP_LINES)
+            line = raw.split("!", 1)[0].strip()
+            if not line:
+                continue
+            if line.startswith("["):
+                keyword = line[1:].split("]", 1)[0].strip().lower()
+                version2 = version2 or keyword == "version"
+                section = keyword
+                if keyword == "number of frequencies":
+                    value = line.split("]", 1)[1].split()
+                    if value and value[0].isdigit():
+                        declared = (number, int(value[0]))
+                (tail if rows else head).append(line)
+                continue
+            if line.startswith("#"):
+                if not any(h.startswith("#") for h in head):
+                    factor, fmt = _option(path, number, line)
+                (tail if rows else head).append(line)
+                continue
+            if version2 and section != "network data":
+                (tail if rows else head).append(line)
+                continue
+            tokens = line.split()
+            if tail and not version2:
+                tail.append(line)
+                continue
+            if not version2 and not pending and nports == 2 and len(tokens) == 5 and rows and (
+                    _number(path, number, 1, tokens[0]) <= rows[-1][1][0][1]):
+                tail.append(line)  # Touchstone 1.x noise parameters (a 5-value row at a frequency not above)
+                continue
+            pending.extend((number, c, _number(path, number, c, t)) for c, t in enumerate(tokens, 1))
+            while len(pending) >= per_row:  # a row may be wrapped over several lines
+                chunk, pending = pending[:per_row], pending[per_row:]
+                rows.append((chunk[0][0], [(c, v) for _, c, v in chunk]))
 
     warnings: list[str] = []
     for number, values in rows:
