@@ -650,7 +650,7 @@ def _lot_settings(args, model: str):
         label = text.strip().removesuffix("Hz")
         at[label] = parse_quantity(text, "Hz", "--at")
     return LotSettings(model=model, reading={k: getattr(args, k) for k in READING_FIELDS},
-                       **_constraints(args), at=at, specs=tuple(args.spec),
+                       **_constraints(args), noise_shape=args.noise_shape, at=at, specs=tuple(args.spec),
                        per_file_model=getattr(args, "per_file_model", False),
                        budget={k: getattr(args, k) for k in BUDGET_FIELDS})
 
@@ -736,6 +736,9 @@ def _add_fit_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--bound", action="append", default=[], metavar="NAME=LOW:HIGH", help="limits")
     group.add_argument("--intervals", choices=["flagged", "all", "none"], default="flagged",
                        help="profile-likelihood intervals, as for fit")
+    group.add_argument("--noise-shape", choices=["estimate", "single"], default="estimate",
+                       help="noise model as for fit; with --model auto and one model for the lot the rows "
+                            "are the single-shape fits the lot's BIC ranking compares")
     group.add_argument("--at", action="append", default=[], metavar="FREQ",
                        help="operating frequency for design values (repeatable), e.g. --at 100k")
     group.add_argument("--spec", action="append", default=[], metavar="NAME=LIMITS",

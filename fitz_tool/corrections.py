@@ -40,6 +40,7 @@ factor). A measurement without sigmas (equal weights in ln Z_m) gets that factor
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -208,12 +209,15 @@ def compensate_fixture(measurement: Measurement, open: Measurement | None = None
     def scaled(sigma: np.ndarray | None) -> np.ndarray:
         return (amplification if sigma is None else sigma * amplification)[usable]
 
+    terms = tuple(dataclasses.replace(t, coefficient=(amplification**2 * t.column(np.abs(zm)))[usable],
+                                      on_model=False) for t in measurement.noise_terms)
     return measurement.replace(
         provenance=provenance,
         frequency=f[usable],
         impedance=zdut[usable],
         sigma_lnmag=scaled(measurement.sigma_lnmag),
         sigma_phase=scaled(measurement.sigma_phase),
+        noise_terms=terms,
     )
 
 

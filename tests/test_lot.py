@@ -158,3 +158,20 @@ def test_a_failing_worker_gives_error_rows_and_is_not_stored(lot, tmp_path):
     assert all("worker process died" in e and "run the lot again" in e for e in result.table["error"])
     with ResultStore(store) as db:
         assert db.fit_counts() == {}
+
+
+def test_the_noise_shape_reaches_every_part_and_keys_the_store(lot, tmp_path):
+    """A fixed-model lot fits each part as `fitz-tool fit` does: with the noise model from the data by
+    default, with the single shape when asked; the two are stored under different keys."""
+    _, store, items, settings, result = lot
+    single = run_lot(items, LotSettings(model=MODEL, at=settings.at, specs=settings.specs,
+                                        noise_shape="single"), store=store, workers=1)
+    assert single.reused == 0 and single.fitted == len(items)
+    ok = [k for k, p in result.payloads.items() if p["status"] == "ok"]
+    for key in ok:
+        record = result.payloads[key]["candidates"][MODEL]
+        assert "single-shape model" in record["fit"]["noise_model"] or "from the data" in record["fit"][
+            "noise_model"]
+    for payload in single.payloads.values():
+        if payload["status"] == "ok":
+            assert payload["candidates"][MODEL]["fit"]["noise_model"] == ""

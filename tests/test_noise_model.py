@@ -189,3 +189,28 @@ def test_auto_ranks_with_the_single_shape_then_refits_the_chosen_model_with_its_
     assert "from the data" in chosen.noise_model and "fitted again with the noise model" in selection.reason
     for name in truth:  # within 4 Cramer-Rao sigmas of the truth
         assert abs(chosen.parameters[name].value - truth[name]) < 4 * bound[name]
+
+
+def test_fixture_compensation_carries_the_noise_terms_through_its_derivative(tmp_path):
+    """Short compensation Z = Zm - Zs (a 2 mohm + 0.3 nH fixture, common practice): each term's coefficient
+    is multiplied by |d ln Zdut / d ln Zm|^2 = |Zm / (Zm - Zs)|^2 at the measured level; the relative term
+    then equals the reader's relative sigma squared, and the floor is still found after compensation."""
+    from fitz_tool.corrections import Corrections, apply_corrections
+
+    _, truth, bound, measurements = case_draws("b", 1, tmp_path, np.random.default_rng(8))
+    m = measurements[0]
+    zs = 2e-3 + 2j * np.pi * m.frequency * 0.3e-9
+    short = Measurement(m.frequency, zs)
+    shifted = m.replace(impedance=m.impedance + zs, noise_terms=m.noise_terms)  # the part on the fixture
+    out = apply_corrections(shifted, Corrections(short=short))
+    np.testing.assert_allclose(out.impedance, m.impedance, rtol=1e-12)
+    gain = np.abs(shifted.impedance / m.impedance) ** 2
+    np.testing.assert_allclose(out.noise_terms[0].coefficient, gain, rtol=1e-12)
+    np.testing.assert_allclose(out.noise_terms[0].coefficient, out.sigma_lnmag**2, rtol=1e-12)
+    level = np.abs(shifted.impedance) ** 2
+    np.testing.assert_allclose(out.noise_terms[1].coefficient, gain * m.noise_terms[1].coefficient / level,
+                               rtol=1e-12)
+    assert not any(t.on_model for t in out.noise_terms)
+    result = ft.fit(out, "Rs + Ls + C1", intervals="none")
+    assert "on the part channel" in result.noise_model and "from the data" in result.noise_model
+    assert abs(result.parameters["Rs"].value - truth["Rs"]) < 4 * bound["Rs"]

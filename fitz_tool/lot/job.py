@@ -65,6 +65,8 @@ class PartJob:
         Limits (SI).
     intervals : str
         Profile-interval mode of :func:`fitz_tool.fit`.
+    noise_shape : str
+        Noise model of :func:`fitz_tool.fit` (``"estimate"`` or ``"single"``).
     at : tuple of float
         Operating frequencies (Hz) for design values.
     budget : dict
@@ -79,6 +81,7 @@ class PartJob:
     guesses: dict = field(default_factory=dict)
     bounds: dict = field(default_factory=dict)
     intervals: str = "flagged"
+    noise_shape: str = "estimate"
     at: tuple[float, ...] = ()
     budget: dict = field(default_factory=dict)
 
@@ -146,10 +149,12 @@ def _fit_part(job: PartJob) -> dict:
         budget = uncertainty_budget(result, limits, job.at, nominal=design)
         return fit_to_json(result, None, design, None, budget=budget)
 
-    constraints = dict(fixed=job.fixed, guesses=job.guesses, bounds=job.bounds, intervals=job.intervals)
+    constraints = dict(fixed=job.fixed, guesses=job.guesses, bounds=job.bounds, intervals=job.intervals,
+                       noise_shape=job.noise_shape)
     candidates: dict[str, dict] = {}
     if job.model.strip().lower() == "auto":
-        selection = fit_auto(measurement, **constraints)
+        # the candidates' records are compared by BIC over the lot: all with the single noise shape
+        selection = fit_auto(measurement, **{**constraints, "noise_shape": "single"})
         for ranked in selection.ranking:
             if ranked.result is not None:
                 record = record_of(ranked.result)

@@ -59,8 +59,9 @@ class LotSettings:
     reading : dict
         Reading and correction options as text (``fitz_tool.lot.job.READING_FIELDS``); a manifest's
         per-file options override them.
-    fixed, guesses, bounds, intervals
-        As for :func:`fitz_tool.fit` (SI).
+    fixed, guesses, bounds, intervals, noise_shape
+        As for :func:`fitz_tool.fit` (SI). With ``auto`` and one model for the lot, the candidates' fits
+        are those ranked with the single noise shape (their BICs are summed over the lot).
     at : dict of str to float
         Frequency label (as written, e.g. ``"100k"``) -> operating frequency in Hz for design values.
     specs : tuple of str
@@ -78,6 +79,7 @@ class LotSettings:
     guesses: dict = field(default_factory=dict)
     bounds: dict = field(default_factory=dict)
     intervals: str = "flagged"
+    noise_shape: str = "estimate"
     at: dict = field(default_factory=dict)
     specs: tuple[str, ...] = ()
     per_file_model: bool = False
@@ -140,12 +142,13 @@ def _jobs(items: Sequence[LotItem], settings: LotSettings,
         reading.update(item.options)
         job = PartJob(file=item.file, reading=reading, model=model, fixed=dict(settings.fixed),
                       guesses=dict(settings.guesses), bounds={k: list(v) for k, v in settings.bounds.items()},
-                      intervals=settings.intervals, at=frequencies,
+                      intervals=settings.intervals, noise_shape=settings.noise_shape, at=frequencies,
                       budget={k: v for k, v in settings.budget.items() if v not in (None, "")})
         sha = file_sha256(item.file)
         standards = [file_sha256(path) for path in job.standards()]
         options = {"reading": reading, "fixed": job.fixed, "guesses": job.guesses, "bounds": job.bounds,
-                   "intervals": job.intervals, "at": list(frequencies), "budget": job.budget}
+                   "intervals": job.intervals, "noise_shape": job.noise_shape, "at": list(frequencies),
+                   "budget": job.budget}
         key = result_key(sha, standards, model, options, __version__)
         storable = bool(sha) and all(standards)
         planned.append(({"file": item.file, "part": item.part, "conditions": dict(item.conditions),
