@@ -10,7 +10,9 @@ the default) and with the reader's single shape (``single``, the behaviour befor
 (b) the same with a 1 uV floor on each channel: at the series resonance (|Z| = 5 mohm, about 100 uV on the
     part) the part channel's floor dominates;
 (c) a shunt-through S21 measurement (Touchstone .s2p, 50 ohm) of a milliohm part ``Rs + Ls`` (2 mohm,
-    0.5 nH), 0.5 % relative noise on S21 (trace noise), no floor.
+    0.5 nH), 0.5 % relative noise on S21 (trace noise), no floor;
+(d) an impedance file (|Z| and phase) of the capacitor with 0.1 % noise on |Z| and 0.5 deg on the phase
+    (an analyzer whose phase is noisier than its magnitude).
 
 The data (``tests/noise_cases.py``) are made from closed-form impedances with circularly symmetric noise
 added to each channel's phasor.
@@ -54,7 +56,7 @@ def score(model, truth, bound, measurements, shape):
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--draws", type=int, default=200)
-    parser.add_argument("--cases", default="abc", help="which cases to run, e.g. b")
+    parser.add_argument("--cases", default="abcd", help="which cases to run, e.g. b")
     args = parser.parse_args()
     rng = np.random.default_rng(2026)
     started = time.perf_counter()

@@ -87,6 +87,9 @@ class NoiseTerm:
         What sqrt(theta) is, in words: ``"of |Z|"``, ``"on the part channel (peak)"``...
     default : bool
         True for the terms of the single-shape model the fit uses when nothing better is supported.
+    component : str
+        Which part of ln Z the term acts on: ``"both"`` (ln|Z| and phase alike: relative parts and phasor
+        floors), ``"magnitude"`` (ln|Z| only) or ``"phase"`` (the phase only).
     """
 
     name: str
@@ -95,6 +98,7 @@ class NoiseTerm:
     unit: str
     words: str
     default: bool = False
+    component: str = "both"
 
     def column(self, model_magnitude: np.ndarray) -> np.ndarray:
         """The term's per-point variance factor at a model's |Z| (ohm)."""

@@ -63,12 +63,14 @@ def write_s2p(path, f, s21):
         str(path.with_suffix("")), form="ri")
 
 
-def cramer_rao(z, grads, truth, variance):
-    """Cramer-Rao standard deviation (SI) of each parameter from the Fisher information of ln Z."""
+def cramer_rao(z, grads, truth, variance, phase_variance=None):
+    """Cramer-Rao standard deviation (SI) of each parameter from the Fisher information of ln Z
+    (``variance`` of ln|Z| per point, and of the phase when ``phase_variance`` is None)."""
     names = list(truth)
     g = np.column_stack([grads[n] / z * LN10 * truth[n] for n in names])  # d ln Z / d log10 p
     w = 1 / variance
-    fisher = (g.real.T * w) @ g.real + (g.imag.T * w) @ g.imag
+    w_phase = w if phase_variance is None else 1 / phase_variance
+    fisher = (g.real.T * w) @ g.real + (g.imag.T * w_phase) @ g.imag
     return {n: LN10 * truth[n] * float(np.sqrt(np.linalg.inv(fisher)[i, i])) for i, n in enumerate(names)}
 
 
@@ -89,6 +91,19 @@ def case_draws(case, draws, folder, rng):
         return "Rs + Ls", truth, bound, out
     truth = {"Rs": 5e-3, "Ls": 1e-9, "C1": 10e-6}
     z, grads = capacitor(F_CAP, truth)
+    if case == "d":  # an impedance file with 0.1 % noise on |Z| and 0.5 deg on the phase
+        sm, sp = 1e-3, np.radians(0.5)
+        bound = cramer_rao(z, grads, truth, np.full(F_CAP.size, sm**2), np.full(F_CAP.size, sp**2))
+        out = []
+        for k in range(draws):
+            n = F_CAP.size
+            noisy = z * np.exp(sm * rng.standard_normal(n) + 1j * sp * rng.standard_normal(n))
+            rows = [f"{f:.10g},{abs(x):.10g},{np.degrees(np.angle(x)):.10g}\n"
+                    for f, x in zip(F_CAP, noisy, strict=True)]
+            path = folder / f"d{k}.csv"
+            path.write_text("Frequency (Hz),|Z| (Ohm),Phase (deg)\n" + "".join(rows), encoding="utf-8")
+            out.append(ft.read_measurement(path))
+        return "Rs + Ls + C1", truth, bound, out
     floor = 1e-6 if case == "b" else 0.0
     v_part, v_shunt, variance = shunt_channels(z, 1e-3, floor)
     bound = cramer_rao(z, grads, truth, variance)

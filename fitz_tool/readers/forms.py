@@ -421,7 +421,8 @@ def stated_sigmas(plan: ColumnPlan, values: Mapping[str, np.ndarray],
 def noise_terms(form: str, values: Mapping[str, np.ndarray], shunt: float | None) -> tuple[NoiseTerm, ...]:
     """The terms a noise model of this form is built from, per row of ``values`` (SI, amplitudes peak).
 
-    Every form: a part relative to |Z| (the default shape: equal weights on ln|Z| and phase). V/I forms: a
+    Every form: a part relative to |Z| (the default shape: equal weights on ln|Z| and phase), and parts of
+    ln|Z| alone and of the phase alone (magnitude and phase noise of different sizes). V/I forms: a
     floor on each channel, as a phasor error of fixed size, so the variance of ln Z it adds is
     floor^2 / level^2: the part channel's level is |I| |Z| (from the model), the current or shunt channel's
     |I| or |V_shunt| as read. Other forms: a floor in ohm on Z (floor^2 / |Z|^2). Channel levels are peak
@@ -430,12 +431,14 @@ def noise_terms(form: str, values: Mapping[str, np.ndarray], shunt: float | None
     if form == "simulator_complex":
         return ()
     n = len(values["frequency"])
-    relative = NoiseTerm("relative", np.ones(n), False, "%", "of |Z|", default=True)
+    relative = (NoiseTerm("relative", np.ones(n), False, "%", "of |Z|", default=True),
+                NoiseTerm("magnitude", np.ones(n), False, "%", "of |Z| alone", component="magnitude"),
+                NoiseTerm("phase", np.ones(n), False, "%", "of phase alone", component="phase"))
     if "i_amplitude" not in values:
-        return relative, NoiseTerm("impedance_floor", np.ones(n), True, "ohm", "in Z")
+        return *relative, NoiseTerm("impedance_floor", np.ones(n), True, "ohm", "in Z")
     sense = values["i_amplitude"]
     current = sense / shunt if form == SHUNT_FORM else sense
     part = NoiseTerm("part_floor", 1.0 / current**2, True, "V", "on the part channel (peak)")
     unit, channel = ("V", "shunt") if form == SHUNT_FORM else ("A", "current")
     sense_term = NoiseTerm("sense_floor", 1.0 / sense**2, False, unit, f"on the {channel} channel (peak)")
-    return relative, part, sense_term
+    return *relative, part, sense_term
