@@ -16,24 +16,9 @@ from fitz_tool.cli import main
 from fitz_tool.exceptions import InputError
 from fitz_tool.readers import ReadOptions, read_measurement
 from fitz_tool.readers.headers import parse_header
+from tests.test_readers_units import I_PK, V_PK, F, W, Z, deg, write  # the same part and table writer
 
-F = np.array([1e3, 1e4, 1e5, 1e6, 1e7])
-W = 2 * np.pi * F
-Z = 1 / (1 / (1.0 + 1j * W * 10e-6) + 1j * W * 50e-12)
-I_PK = 0.02 * np.exp(1j * np.linspace(-0.5, 2.5, F.size))  # A peak
-V_PK = Z * I_PK
 POLAR = ["Frequency (Hz)", "|Z| (Ohm)", "Phase (deg)"]
-
-
-def write(tmp_path, header, columns, name="w.csv"):
-    lines = [",".join(header)] + [",".join(f"{x:.17g}" for x in row) for row in np.column_stack(columns)]
-    path = tmp_path / name
-    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    return path
-
-
-def deg(x):
-    return np.degrees(np.angle(x))
 
 
 def polar_with(position, header):
