@@ -84,6 +84,8 @@ class NoiseModel:
                 constant[term.component] += float(theta)
             elif term.unit == "%":
                 parts.append(f"{100 * size:.2g} % {term.words}")
+            elif term.unit == "s":
+                parts.append(f"{_eng(float(f'{size:.2g}'), 's', None)} {term.words}")
             elif term.unit:
                 parts.append(f"a floor of {_eng(float(f'{size:.2g}'), term.unit, None)} {term.words}")
             else:

@@ -422,7 +422,8 @@ def noise_terms(form: str, values: Mapping[str, np.ndarray], shunt: float | None
     """The terms a noise model of this form is built from, per row of ``values`` (SI, amplitudes peak).
 
     Every form: a part relative to |Z| (the default shape: equal weights on ln|Z| and phase), and parts of
-    ln|Z| alone and of the phase alone (magnitude and phase noise of different sizes). V/I forms: a
+    ln|Z| alone and of the phase alone (magnitude and phase noise of different sizes). V/I forms: timing
+    jitter between the two channels (a phase error of 2 pi f sigma_t), and a
     floor on each channel, as a phasor error of fixed size, so the variance of ln Z it adds is
     floor^2 / level^2: the part channel's level is |I| |Z| (from the model), the current or shunt channel's
     |I| or |V_shunt| as read. Other forms: a floor in ohm on Z (floor^2 / |Z|^2). Channel levels are peak
@@ -438,7 +439,9 @@ def noise_terms(form: str, values: Mapping[str, np.ndarray], shunt: float | None
         return *relative, NoiseTerm("impedance_floor", np.ones(n), True, "ohm", "in Z")
     sense = values["i_amplitude"]
     current = sense / shunt if form == SHUNT_FORM else sense
+    jitter = NoiseTerm("jitter", (2 * np.pi * values["frequency"]) ** 2, False, "s",
+                       "of timing jitter between the channels", component="phase")
     part = NoiseTerm("part_floor", 1.0 / current**2, True, "V", "on the part channel (peak)")
     unit, channel = ("V", "shunt") if form == SHUNT_FORM else ("A", "current")
     sense_term = NoiseTerm("sense_floor", 1.0 / sense**2, False, unit, f"on the {channel} channel (peak)")
-    return *relative, part, sense_term
+    return *relative, jitter, part, sense_term
