@@ -206,10 +206,9 @@ def _residual_entries(problem: FitProblem, x: np.ndarray) -> tuple[np.ndarray, n
     return e**2, z_model
 
 
-def _scaled(theta: np.ndarray, e2: np.ndarray, v: np.ndarray, problem: FitProblem) -> np.ndarray:
-    """Thetas scaled so that the residuals weighted by 1/sqrt(v) have unit variance per degree of freedom."""
-    dof = max(1, e2.size - len(problem.free))
-    return theta * float(np.sum(e2 / v)) / dof
+def _level(e2: np.ndarray, v: np.ndarray, problem: FitProblem) -> float:
+    """The factor that gives the residuals weighted by 1/sqrt(v) unit variance per degree of freedom."""
+    return float(np.sum(e2 / v)) / max(1, e2.size - len(problem.free))
 
 
 def _reweighted(problem: FitProblem, v: np.ndarray) -> FitProblem:
@@ -239,22 +238,24 @@ def estimate_noise(problem: FitProblem, measurement: Measurement, out: LocalFit,
     def kept() -> tuple[FitProblem, LocalFit, Measurement, NoiseModel]:
         columns = design(terms, z_model)[:, list(default)]
         theta, _ = likelihood_thetas(e2, columns)
-        model = NoiseModel(tuple(terms[i] for i in default), _scaled(theta, e2, columns @ theta, problem),
+        model = NoiseModel(tuple(terms[i] for i in default), theta * _level(e2, columns @ theta, problem),
                            0.0, True)
         return problem, out, measurement, model
 
     if chosen == default:
         return kept()
     subset = tuple(terms[i] for i in chosen)
-    theta, m2lnl = likelihood_thetas(e2, design(subset, z_model))
-    v = design(subset, z_model) @ theta
+    columns = design(subset, z_model)
+    theta, m2lnl = likelihood_thetas(e2, columns)
+    v = columns @ theta
     fit, trial, e2_fit = out, problem, e2
     for _ in range(ITERATIONS):
         trial = _reweighted(problem, v)
         fit = local_fit(trial, fit.x, bounds[0], bounds[1], True)
         e2_fit, z_fit = _residual_entries(trial, fit.x)
-        theta, m2lnl = likelihood_thetas(e2_fit, design(subset, z_fit))
-        v_new = design(subset, z_fit) @ theta
+        columns = design(subset, z_fit)
+        theta, m2lnl = likelihood_thetas(e2_fit, columns)
+        v_new = columns @ theta
         settled = bool(np.all(v_new > 0) and np.max(np.abs(v_new / v - 1)) < SETTLED)
         if np.all(v_new > 0):
             v = v_new
@@ -265,10 +266,10 @@ def estimate_noise(problem: FitProblem, measurement: Measurement, out: LocalFit,
     gain = scores[default] - (m2lnl + len(subset) * np.log(e2.size))
     if not (gain > BIC_MARGIN and fit.success and np.isfinite(m2lnl)):
         return kept()
-    model = NoiseModel(subset, _scaled(theta, e2_fit, v, problem), float(gain), False)
+    model = NoiseModel(subset, theta * _level(e2_fit, v, problem), float(gain), False)
     m_points = problem.frequency.size
     used = np.concatenate([1 / trial.weight_lnmag**2, 1 / trial.weight_phase**2])  # the last refit's weights
-    sigma = np.sqrt(used * float(np.sum(e2_fit / used)) / max(1, e2_fit.size - len(problem.free)))
+    sigma = np.sqrt(used * _level(e2_fit, used, problem))
     m = measurement.replace(
         step=f"noise model from the data: {model.words()}; per-point sigmas of ln|Z| and phase from it "
              "(relative weights: the noise level comes from the residuals)",
